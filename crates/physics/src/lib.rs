@@ -1,0 +1,42 @@
+//! Caldera's physics engine: units, baryonic mass components, halo profiles and the
+//! isothermal-Jeans SIDM halo. No I/O, no UI.
+//!
+//! Main types: [`Nfw`], [`Burkert`], [`PseudoIsothermal`] and [`SidmHalo`] behind the
+//! [`HaloProfile`] trait; [`BaryonTable`], [`Hernquist`] and [`ExponentialDisk`] behind
+//! [`EnclosedMass`]; [`CrossSection`]; [`Cosmology`]. Constants live in [`units`].
+//!
+//! ```
+//! use caldera_physics::{CrossSection, Cosmology, HaloProfile, NoBaryons, SidmSetup, sidm};
+//!
+//! let setup = SidmSetup {
+//!     cross_section: CrossSection::constant(3.0)?,
+//!     age_gyr: 10.0,
+//!     baryons: &NoBaryons,
+//!     cosmology: Cosmology::default(),
+//! };
+//! let halo = sidm::core_first(&setup, 1e8, 40.0)?;
+//! let summary = halo.summary();
+//! assert!((summary.r1_kpc - 6.1868).abs() < 1e-3);
+//! assert!(halo.v_circ_kms(2.0) > 0.0);
+//! # Ok::<(), caldera_physics::PhysicsError>(())
+//! ```
+
+pub mod baryons;
+pub mod cosmology;
+pub mod cross_section;
+mod error;
+pub mod halo;
+pub mod ode;
+mod roots;
+pub mod sidm;
+mod special;
+pub mod units;
+
+pub use baryons::{
+    BaryonTable, BaryonVelocities, EnclosedMass, ExponentialDisk, Hernquist, NoBaryons,
+};
+pub use cosmology::Cosmology;
+pub use cross_section::CrossSection;
+pub use error::PhysicsError;
+pub use halo::{Burkert, HaloProfile, Nfw, PseudoIsothermal, VirialQuantities};
+pub use sidm::{Branch, SidmHalo, SidmSetup, SidmSummary};

@@ -1,0 +1,344 @@
+//! Matching the isothermal core to an NFW halo: the NFW mass-ratio inversion, the baryon-free
+//! candidate scan and the Newton continuation that switches the baryons on.
+
+use std::sync::OnceLock;
+
+use super::SidmSetup;
+use super::jeans::{GridSolution, JeansProblem, STEP_LN_XI};
+use crate::PhysicsError;
+use crate::baryons::{EnclosedMass, NoBaryons, ScaledMass};
+use crate::halo::{HaloProfile, Nfw, nfw_mass_function};
+use crate::roots::brent;
+use crate::units::G_KPC_KMS2_PER_MSUN;
+
+/// Largest ξ1 scanned for baryon-free candidates (ρ0/ρ1 up to ~10⁸).
+const MAX_SCAN_XI: f64 = 1e4;
+/// Newton converges when both log-residuals are below this.
+const NEWTON_TOLERANCE: f64 = 1e-10;
+/// Forward-difference step in ln ρ0 and ln σ0 for the Jacobian.
+const JACOBIAN_STEP: f64 = 1e-7;
+
+/// Solves (1 + x)² f(x) / x² = `mass_ratio` for x = r1/r_s, where the left side is
+/// M_NFW(r1) / (4π r1³ ρ_NFW(r1)) and f is [`nfw_mass_function`]. It rises monotonically from
+/// 1/2 at x → 0, so a ratio ≤ 1/2 has no NFW match. `guess` warm-starts Newton's method.
+pub fn invert_nfw_mass_ratio(mass_ratio: f64, guess: Option<f64>) -> Result<f64, PhysicsError> {
+    if !(mass_ratio.is_finite() && mass_ratio > 0.5) {
+        return Err(PhysicsError::NoNfwMatch { mass_ratio });
+    }
+    let ratio = |x: f64| (1.0 + x) * (1.0 + x) * nfw_mass_function(x) / (x * x);
+    let mut x = guess.unwrap_or(if mass_ratio < 0.6 {
+        3.0 * (mass_ratio - 0.5)
+    } else {
+        1.0
+    });
+    for _ in 0..60 {
+        // Newton in u = ln x: d(ratio)/du = 1 − 2 (1 + x) f(x) / x².
+        let slope = 1.0 - 2.0 * (1.0 + x) * nfw_mass_function(x) / (x * x);
+        if slope <= 0.0 || !slope.is_finite() {
+            break;
+        }
+        let step = ((ratio(x) - mass_ratio) / slope).clamp(-1.0, 1.0);
+        x *= (-step).exp();
+        if step.abs() < 1e-13 {
+            return Ok(x);
+        }
+    }
+    // Safeguard: bracketed solve in ln x.
+    brent(
+        |u: f64| ratio(u.exp()) - mass_ratio,
+        -40.0,
+        40.0,
+        1e-15,
+        "NFW mass-ratio inversion",
+    )
+    .map(f64::exp)
+}
+
+/// The universal baryon-free isothermal profile, integrated once.
+fn universal_profile() -> &'static GridSolution {
+    static PROFILE: OnceLock<GridSolution> = OnceLock::new();
+    PROFILE.get_or_init(|| {
+        let mut grid = GridSolution::empty();
+        // Without baryons the dimensionless problem has no parameters: any (ρ0, σ0) will do.
+        let problem = JeansProblem::new(1.0, 1.0, &NoBaryons);
+        // This integration has no parameters and cannot fail; an empty grid yields no
+        // candidates if it ever did.
+        if problem
+            .integrate(f64::INFINITY, MAX_SCAN_XI, Some(&mut grid))
+            .is_err()
+        {
+            grid.nodes.clear();
+        }
+        grid
+    })
+}
+
+/// A baryon-free candidate matched at ξ1 on the universal profile.
+struct Candidate {
+    /// ln(r_c ξ1 / r1): zero when the candidate is a solution.
+    discrepancy: f64,
+    rho0_msun_kpc3: f64,
+    sigma0_kms: f64,
+    x: f64,
+}
+
+/// For a match at ξ1 = e^t with universal (ψ, m): the mass ratio fixes x = r1/r_s, hence r1 and
+/// ρ1 on the target NFW; the rate condition gives σ0, and ρ0 = ρ1 e^ψ. The candidate is a
+/// solution when the core scale this implies, r_c = σ0/√(4πGρ0), puts ξ1 at r1.
+fn candidate(
+    setup: &SidmSetup,
+    nfw: &Nfw,
+    t: f64,
+    psi: f64,
+    m: f64,
+    guess: Option<f64>,
+) -> Option<Candidate> {
+    let xi = t.exp();
+    let mass_ratio = m * psi.exp() / (xi * xi * xi);
+    let x = invert_nfw_mass_ratio(mass_ratio, guess).ok()?;
+    let r1 = x * nfw.r_s_kpc;
+    let rho1 = nfw.density_msun_kpc3(r1);
+    let sigma0 = setup
+        .cross_section
+        .sigma0_for_rate_density_kms(rho1, setup.age_gyr)
+        .ok()?;
+    let rho0 = rho1 * psi.exp();
+    let core_scale = sigma0 / (4.0 * std::f64::consts::PI * G_KPC_KMS2_PER_MSUN * rho0).sqrt();
+    Some(Candidate {
+        discrepancy: (core_scale * xi / r1).ln(),
+        rho0_msun_kpc3: rho0,
+        sigma0_kms: sigma0,
+        x,
+    })
+}
+
+/// Baryon-free solutions (ρ0, σ0) for `nfw`, in order of increasing ρ0.
+pub(super) fn baryon_free_seeds(
+    setup: &SidmSetup,
+    nfw: &Nfw,
+) -> Result<Vec<(f64, f64)>, PhysicsError> {
+    let grid = universal_profile();
+    let mut seeds = Vec::new();
+    let mut previous: Option<(f64, f64)> = None;
+    let mut guess = None;
+    for (i, node) in grid.nodes.iter().enumerate() {
+        let t = grid.t_start + i as f64 * STEP_LN_XI;
+        let Some(here) = candidate(setup, nfw, t, node.psi, node.m, guess) else {
+            previous = None;
+            guess = None;
+            continue;
+        };
+        guess = Some(here.x);
+        if previous.is_none() && i > 0 && here.discrepancy > 0.0 {
+            // Entering the matchable region (mass ratio just above 1/2): there x → 0 and the
+            // discrepancy → −∞, so a root may lie between the threshold and this node.
+            let t_before = t - STEP_LN_XI;
+            if let Some(seed) = seed_near_threshold(setup, nfw, grid, t_before, t) {
+                seeds.push(seed);
+            }
+        }
+        if let Some((t_before, d_before)) = previous
+            && (d_before < 0.0) != (here.discrepancy < 0.0)
+        {
+            let on_profile = |t: f64| {
+                let (psi, m) = grid.state_at(t);
+                candidate(setup, nfw, t, psi, m, guess)
+            };
+            let root = brent(
+                |t| on_profile(t).map_or(f64::NAN, |c| c.discrepancy),
+                t_before,
+                t,
+                1e-13,
+                "baryon-free matching scan",
+            );
+            if let Some(found) = root.ok().and_then(on_profile) {
+                seeds.push((found.rho0_msun_kpc3, found.sigma0_kms));
+            }
+        }
+        previous = Some((t, here.discrepancy));
+    }
+    seeds.sort_by(|a, b| a.0.total_cmp(&b.0));
+    Ok(seeds)
+}
+
+/// Finds a root of the discrepancy between the point where the universal mass ratio crosses 1/2
+/// (inside [t_low, t_high]) and t_high, where the discrepancy is positive.
+fn seed_near_threshold(
+    setup: &SidmSetup,
+    nfw: &Nfw,
+    grid: &GridSolution,
+    t_low: f64,
+    t_high: f64,
+) -> Option<(f64, f64)> {
+    let ratio_excess = |t: f64| {
+        let (psi, m) = grid.state_at(t);
+        m * psi.exp() / (3.0 * t).exp() - 0.5
+    };
+    let threshold = brent(ratio_excess, t_low, t_high, 1e-15, "mass-ratio threshold").ok()?;
+    let on_profile = |t: f64| {
+        let (psi, m) = grid.state_at(t);
+        candidate(setup, nfw, t, psi, m, None)
+    };
+    let mut offset = 1e-3 * (t_high - threshold);
+    for _ in 0..6 {
+        let t = threshold + offset;
+        if on_profile(t).is_some_and(|c| c.discrepancy < 0.0) {
+            let root = brent(
+                |t| on_profile(t).map_or(f64::NAN, |c| c.discrepancy),
+                t,
+                t_high,
+                1e-15,
+                "baryon-free matching scan",
+            )
+            .ok()?;
+            return on_profile(root).map(|c| (c.rho0_msun_kpc3, c.sigma0_kms));
+        }
+        offset *= 1e-3;
+    }
+    None
+}
+
+/// Log-residuals of the matching conditions at u = (ln ρ0, ln σ0): the core's r1 and M(r1)
+/// against the target NFW halo's radius and mass at the rate density.
+fn matching_residual(
+    setup: &SidmSetup,
+    nfw: &Nfw,
+    baryons: &dyn EnclosedMass,
+    u: [f64; 2],
+) -> Option<[f64; 2]> {
+    let (rho0, sigma0) = (u[0].exp(), u[1].exp());
+    let rho1 = setup
+        .cross_section
+        .rate_density_msun_kpc3(sigma0, setup.age_gyr);
+    if !(rho1 < rho0) {
+        return None;
+    }
+    let problem = JeansProblem::new(rho0, sigma0, baryons);
+    let crossing = problem
+        .integrate((rho0 / rho1).ln(), f64::INFINITY, None)
+        .ok()??;
+    let r1 = problem.core_scale_kpc * crossing.ln_xi.exp();
+    let m1 = problem.mass_unit_msun * crossing.m;
+    let r1_target = nfw.radius_at_density_kpc(rho1);
+    let m1_target = nfw.enclosed_mass_msun(r1_target);
+    let residual = [(r1 / r1_target).ln(), (m1 / m1_target).ln()];
+    residual.iter().all(|v| v.is_finite()).then_some(residual)
+}
+
+fn max_abs(v: [f64; 2]) -> f64 {
+    v[0].abs().max(v[1].abs())
+}
+
+/// Damped Newton's method on the matching residual with a forward-difference Jacobian.
+fn newton(
+    setup: &SidmSetup,
+    nfw: &Nfw,
+    baryons: &dyn EnclosedMass,
+    start: [f64; 2],
+    max_iterations: usize,
+) -> Option<[f64; 2]> {
+    let mut u = start;
+    let mut f = matching_residual(setup, nfw, baryons, u)?;
+    for _ in 0..max_iterations {
+        if max_abs(f) < NEWTON_TOLERANCE {
+            return Some(u);
+        }
+        let mut jacobian = [[0.0; 2]; 2];
+        for j in 0..2 {
+            let mut shifted = u;
+            shifted[j] += JACOBIAN_STEP;
+            let fj = matching_residual(setup, nfw, baryons, shifted)?;
+            for i in 0..2 {
+                jacobian[i][j] = (fj[i] - f[i]) / JACOBIAN_STEP;
+            }
+        }
+        let det = jacobian[0][0] * jacobian[1][1] - jacobian[0][1] * jacobian[1][0];
+        if !det.is_finite() || det.abs() < 1e-300 {
+            return None;
+        }
+        let mut step = [
+            -(jacobian[1][1] * f[0] - jacobian[0][1] * f[1]) / det,
+            -(-jacobian[1][0] * f[0] + jacobian[0][0] * f[1]) / det,
+        ];
+        let size = max_abs(step);
+        if size > 0.5 {
+            step = [step[0] * 0.5 / size, step[1] * 0.5 / size];
+        }
+        let mut alpha = 1.0;
+        let mut accepted = false;
+        for _ in 0..12 {
+            let trial = [u[0] + alpha * step[0], u[1] + alpha * step[1]];
+            if let Some(ft) = matching_residual(setup, nfw, baryons, trial)
+                && max_abs(ft) < max_abs(f)
+            {
+                u = trial;
+                f = ft;
+                accepted = true;
+                break;
+            }
+            alpha *= 0.5;
+        }
+        if !accepted {
+            return (max_abs(f) < 100.0 * NEWTON_TOLERANCE).then_some(u);
+        }
+    }
+    (max_abs(f) < NEWTON_TOLERANCE).then_some(u)
+}
+
+/// Follows a baryon-free solution while the baryons are switched on (mass × λ, λ: 0 → 1),
+/// halving the λ step when Newton fails. Returns (ρ0, σ0) with the full baryons, or None when
+/// the branch ends (two solutions merge and vanish) before λ = 1.
+pub(super) fn follow_with_baryons(
+    setup: &SidmSetup,
+    nfw: &Nfw,
+    seed: (f64, f64),
+) -> Option<(f64, f64)> {
+    let start = [seed.0.ln(), seed.1.ln()];
+    if setup.baryons.is_massless() {
+        let u = newton(setup, nfw, setup.baryons, start, 30)?;
+        return Some((u[0].exp(), u[1].exp()));
+    }
+    let mut u = newton(setup, nfw, &NoBaryons, start, 30)?;
+    let mut lambda: f64 = 0.0;
+    let mut increment: f64 = 1.0;
+    while lambda < 1.0 {
+        let target = (lambda + increment).min(1.0);
+        let scaled = ScaledMass {
+            inner: setup.baryons,
+            factor: target,
+        };
+        if let Some(next) = newton(setup, nfw, &scaled, u, 20) {
+            u = next;
+            lambda = target;
+            increment = (2.0 * increment).min(1.0);
+        } else {
+            increment *= 0.5;
+            if increment < 1.0 / 512.0 {
+                return None;
+            }
+        }
+    }
+    Some((u[0].exp(), u[1].exp()))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use approx::assert_relative_eq;
+
+    #[test]
+    fn mass_ratio_inversion_round_trips() {
+        for x in [1e-6, 1e-3, 0.05, 0.7, 1.0, 3.0, 40.0, 1e4] {
+            let q = (1.0 + x) * (1.0 + x) * nfw_mass_function(x) / (x * x);
+            assert_relative_eq!(
+                invert_nfw_mass_ratio(q, None).expect("invertible"),
+                x,
+                max_relative = 1e-8
+            );
+        }
+        assert!(matches!(
+            invert_nfw_mass_ratio(0.45, None),
+            Err(PhysicsError::NoNfwMatch { .. })
+        ));
+    }
+}

@@ -1,0 +1,313 @@
+//! The SIDM halo: an isothermal core, with the baryons inside it, matched to an NFW halo at the
+//! radius r1 where each particle has scattered about once over the halo's age.
+//!
+//! Published method: Kaplinghat, Tulin & Yu (2016); with baryons, Kamada, Kaplinghat, Pace & Yu
+//! (2017).
+//! 1. Rate condition: ρ(r1) · ⟨σv⟩/m · t_age = 1, with ⟨σv⟩/m = (σ/m) · 4σ0/√π.
+//! 2. Inside r1: d ln ρ/dr = −G [M_dm(r) + M_b(r)] / (σ0² r²), dM_dm/dr = 4πr²ρ, ρ(0) = ρ0.
+//! 3. Matching at r1: ρ_iso(r1) = ρ_NFW(r1) and M_iso(r1) = M_NFW(r1).
+//!
+//! Two parameterisations:
+//! - [`core_first`] (ρ0, σ0) → r1 and the matched NFW halo: one integration and one 1-D root.
+//! - [`halo_first`] (NFW halo) → (ρ0, σ0): a 2-D root-find with several solutions in general
+//!   (the isothermal sphere's mass–density relation oscillates). Candidates come from the
+//!   baryon-free problem, which is scale-free and so reduces to a 1-D scan of one universal
+//!   isothermal profile; each candidate is then followed by Newton's method while the baryons
+//!   are switched on in steps (continuation). Solutions are ordered by central density;
+//!   [`Branch::LowestDensity`] (the default, the core-expansion phase) is branch 0.
+//!   Limitation: a solution that exists only with baryons and does not connect to a baryon-free
+//!   one is not found.
+
+mod jeans;
+mod matching;
+
+use std::f64::consts::PI;
+
+use crate::PhysicsError;
+use crate::baryons::EnclosedMass;
+use crate::cosmology::Cosmology;
+use crate::cross_section::{CrossSection, mean_relative_speed_kms};
+use crate::error::require_positive;
+use crate::halo::{HaloProfile, Nfw, VirialQuantities};
+
+pub use matching::invert_nfw_mass_ratio;
+
+use jeans::{GridSolution, JeansProblem};
+
+/// Everything an SIDM halo needs besides its own parameters.
+#[derive(Clone, Copy)]
+pub struct SidmSetup<'a> {
+    pub cross_section: CrossSection,
+    /// Halo age t_age over which each particle scatters about once, Gyr.
+    pub age_gyr: f64,
+    /// Baryonic enclosed mass seen by the Jeans equation.
+    pub baryons: &'a dyn EnclosedMass,
+    pub cosmology: Cosmology,
+}
+
+impl std::fmt::Debug for SidmSetup<'_> {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.debug_struct("SidmSetup")
+            .field("cross_section", &self.cross_section)
+            .field("age_gyr", &self.age_gyr)
+            .field("has_baryons", &!self.baryons.is_massless())
+            .field("cosmology", &self.cosmology)
+            .finish()
+    }
+}
+
+/// Which halo-first solution to return.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+pub enum Branch {
+    /// The lowest-central-density (largest) core: the usual physical choice.
+    #[default]
+    LowestDensity,
+    /// The k-th solution in order of increasing central density (0 = lowest density).
+    Index(usize),
+}
+
+/// An SIDM halo: isothermal core inside r1, NFW outside.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SidmHalo {
+    rho0_msun_kpc3: f64,
+    sigma0_kms: f64,
+    core_scale_kpc: f64,
+    mass_unit_msun: f64,
+    r1_kpc: f64,
+    /// ln ξ at r1.
+    ln_xi1: f64,
+    grid: GridSolution,
+    nfw: Nfw,
+    virial: VirialQuantities,
+    sigma_v_over_m_cm2_g_kms: f64,
+    branch: Option<usize>,
+}
+
+/// The derived quantities of an SIDM halo, in the units their names state.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize, serde::Deserialize)]
+pub struct SidmSummary {
+    pub rho0_msun_kpc3: f64,
+    pub sigma0_kms: f64,
+    pub r1_kpc: f64,
+    /// King radius r0 = 3σ0 / √(4πGρ0), kpc.
+    pub core_radius_kpc: f64,
+    /// ⟨v_rel⟩ = 4σ0/√π, the velocity at which this halo measures σ/m, km/s.
+    pub v_rel_kms: f64,
+    pub sigma_v_over_m_cm2_g_kms: f64,
+    pub rho_s_msun_kpc3: f64,
+    pub r_s_kpc: f64,
+    pub v200_kms: f64,
+    pub c200: f64,
+    pub r200_kpc: f64,
+    pub m200_msun: f64,
+    /// Halo-first solution index in order of increasing central density (None for core-first).
+    pub branch: Option<usize>,
+}
+
+fn validate_setup(setup: &SidmSetup) -> Result<(), PhysicsError> {
+    require_positive("halo age [Gyr]", setup.age_gyr)?;
+    if setup.cross_section.is_zero() {
+        return Err(PhysicsError::NonPositive {
+            what: "sigma/m [cm2/g] (an SIDM halo needs sigma/m > 0; sigma/m = 0 is the NFW halo)",
+            value: 0.0,
+        });
+    }
+    Ok(())
+}
+
+/// Core-first solve: from the central density ρ0 (Msun/kpc³) and dispersion σ0 (km/s), find r1
+/// where ρ falls to the rate density and the NFW halo that continues the core there.
+///
+/// Errors: [`PhysicsError::NoCore`] when ρ1 ≥ ρ0, [`PhysicsError::NoNfwMatch`] when the core's
+/// mass at r1 is too small for any NFW halo.
+pub fn core_first(
+    setup: &SidmSetup,
+    rho0_msun_kpc3: f64,
+    sigma0_kms: f64,
+) -> Result<SidmHalo, PhysicsError> {
+    validate_setup(setup)?;
+    require_positive("central density rho0 [Msun/kpc3]", rho0_msun_kpc3)?;
+    require_positive("velocity dispersion sigma0 [km/s]", sigma0_kms)?;
+    let rho1 = setup
+        .cross_section
+        .rate_density_msun_kpc3(sigma0_kms, setup.age_gyr);
+    if rho1 >= rho0_msun_kpc3 {
+        return Err(PhysicsError::NoCore {
+            rho0_msun_kpc3,
+            rho1_msun_kpc3: rho1,
+        });
+    }
+    let problem = JeansProblem::new(rho0_msun_kpc3, sigma0_kms, setup.baryons);
+    let mut grid = GridSolution::empty();
+    let crossing = problem
+        .integrate((rho0_msun_kpc3 / rho1).ln(), f64::INFINITY, Some(&mut grid))?
+        .ok_or(PhysicsError::NoConvergence {
+            what: "isothermal Jeans integration",
+        })?;
+    let r1_kpc = problem.core_scale_kpc * crossing.ln_xi.exp();
+    let m1_msun = problem.mass_unit_msun * crossing.m;
+    let mass_ratio = m1_msun / (4.0 * PI * r1_kpc.powi(3) * rho1);
+    let x = invert_nfw_mass_ratio(mass_ratio, None)?;
+    let nfw = Nfw::from_rho_s_r_s(rho1 * x * (1.0 + x) * (1.0 + x), r1_kpc / x)?;
+    let virial = nfw.virial(&setup.cosmology)?;
+    Ok(SidmHalo {
+        rho0_msun_kpc3,
+        sigma0_kms,
+        core_scale_kpc: problem.core_scale_kpc,
+        mass_unit_msun: problem.mass_unit_msun,
+        r1_kpc,
+        ln_xi1: crossing.ln_xi,
+        grid,
+        nfw,
+        virial,
+        sigma_v_over_m_cm2_g_kms: setup.cross_section.sigma_v_over_m_cm2_g_kms(sigma0_kms),
+        branch: None,
+    })
+}
+
+/// Halo-first solve: the isothermal core (ρ0, σ0) that matches the NFW halo `nfw` for this
+/// cross-section, age and baryons. `branch` picks among several solutions.
+///
+/// Errors: [`PhysicsError::NoSolution`] when none exists, [`PhysicsError::BranchUnavailable`]
+/// when fewer solutions than the requested index exist.
+pub fn halo_first(setup: &SidmSetup, nfw: &Nfw, branch: Branch) -> Result<SidmHalo, PhysicsError> {
+    validate_setup(setup)?;
+    let wanted = match branch {
+        Branch::LowestDensity => 0,
+        Branch::Index(k) => k,
+    };
+    let seeds = matching::baryon_free_seeds(setup, nfw)?;
+    if seeds.is_empty() {
+        return Err(PhysicsError::NoSolution {
+            reason: "the rate condition puts r1 where the NFW halo's mass is too large for any isothermal core; lower sigma/m or the halo age".into(),
+        });
+    }
+    let mut found: Vec<(f64, f64)> = Vec::new();
+    for seed in &seeds {
+        if let Some(solution) = matching::follow_with_baryons(setup, nfw, *seed)
+            && !found
+                .iter()
+                .any(|known| (known.0 / solution.0 - 1.0).abs() < 1e-6)
+        {
+            found.push(solution);
+            found.sort_by(|a, b| a.0.total_cmp(&b.0));
+            if found.len() > wanted && matches!(branch, Branch::LowestDensity) {
+                break;
+            }
+        }
+    }
+    if found.is_empty() {
+        return Err(PhysicsError::NoSolution {
+            reason: "the baryons leave no isothermal core that continues this NFW halo".into(),
+        });
+    }
+    let Some(&(rho0, sigma0)) = found.get(wanted) else {
+        return Err(PhysicsError::BranchUnavailable {
+            requested: wanted,
+            found: found.len(),
+        });
+    };
+    let mut halo = core_first(setup, rho0, sigma0)?;
+    halo.branch = Some(wanted);
+    Ok(halo)
+}
+
+/// Every halo-first solution found, in order of increasing central density.
+pub fn halo_first_all(setup: &SidmSetup, nfw: &Nfw) -> Result<Vec<SidmHalo>, PhysicsError> {
+    validate_setup(setup)?;
+    let mut found: Vec<(f64, f64)> = Vec::new();
+    for seed in matching::baryon_free_seeds(setup, nfw)? {
+        if let Some(solution) = matching::follow_with_baryons(setup, nfw, seed)
+            && !found
+                .iter()
+                .any(|known| (known.0 / solution.0 - 1.0).abs() < 1e-6)
+        {
+            found.push(solution);
+        }
+    }
+    found.sort_by(|a, b| a.0.total_cmp(&b.0));
+    found
+        .into_iter()
+        .enumerate()
+        .map(|(k, (rho0, sigma0))| {
+            let mut halo = core_first(setup, rho0, sigma0)?;
+            halo.branch = Some(k);
+            Ok(halo)
+        })
+        .collect()
+}
+
+impl SidmHalo {
+    /// The radius where each particle has scattered once, kpc.
+    #[must_use]
+    pub fn r1_kpc(&self) -> f64 {
+        self.r1_kpc
+    }
+
+    /// The NFW halo outside r1.
+    #[must_use]
+    pub fn nfw(&self) -> &Nfw {
+        &self.nfw
+    }
+
+    /// Central density ρ0, Msun/kpc³.
+    #[must_use]
+    pub fn rho0_msun_kpc3(&self) -> f64 {
+        self.rho0_msun_kpc3
+    }
+
+    /// Core velocity dispersion σ0, km/s.
+    #[must_use]
+    pub fn sigma0_kms(&self) -> f64 {
+        self.sigma0_kms
+    }
+
+    /// All derived quantities.
+    #[must_use]
+    pub fn summary(&self) -> SidmSummary {
+        SidmSummary {
+            rho0_msun_kpc3: self.rho0_msun_kpc3,
+            sigma0_kms: self.sigma0_kms,
+            r1_kpc: self.r1_kpc,
+            core_radius_kpc: 3.0 * self.core_scale_kpc,
+            v_rel_kms: mean_relative_speed_kms(self.sigma0_kms),
+            sigma_v_over_m_cm2_g_kms: self.sigma_v_over_m_cm2_g_kms,
+            rho_s_msun_kpc3: self.nfw.rho_s_msun_kpc3,
+            r_s_kpc: self.nfw.r_s_kpc,
+            v200_kms: self.virial.v200_kms,
+            c200: self.virial.c200,
+            r200_kpc: self.virial.r200_kpc,
+            m200_msun: self.virial.m200_msun,
+            branch: self.branch,
+        }
+    }
+
+    fn core_state(&self, radius_kpc: f64) -> (f64, f64) {
+        self.grid
+            .state_at((radius_kpc / self.core_scale_kpc).ln().min(self.ln_xi1))
+    }
+}
+
+impl HaloProfile for SidmHalo {
+    fn density_msun_kpc3(&self, radius_kpc: f64) -> f64 {
+        if radius_kpc > self.r1_kpc {
+            return self.nfw.density_msun_kpc3(radius_kpc);
+        }
+        let (psi, _) = self.core_state(radius_kpc);
+        self.rho0_msun_kpc3 * (-psi).exp()
+    }
+
+    fn enclosed_mass_msun(&self, radius_kpc: f64) -> f64 {
+        if radius_kpc > self.r1_kpc {
+            return self.nfw.enclosed_mass_msun(radius_kpc);
+        }
+        if radius_kpc <= 0.0 {
+            return 0.0;
+        }
+        let (_, m) = self.core_state(radius_kpc);
+        self.mass_unit_msun * m
+    }
+}
+
+#[cfg(test)]
+mod tests;

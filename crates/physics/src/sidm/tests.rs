@@ -1,0 +1,194 @@
+use super::*;
+use crate::baryons::{Hernquist, NoBaryons};
+use approx::assert_relative_eq;
+
+fn setup(sigma_m: f64, baryons: &dyn EnclosedMass) -> SidmSetup<'_> {
+    SidmSetup {
+        cross_section: CrossSection::constant(sigma_m).expect("valid"),
+        age_gyr: 10.0,
+        baryons,
+        cosmology: Cosmology::default(),
+    }
+}
+
+#[test]
+fn core_first_matches_scipy_reference_table() {
+    // Reference: physics reference, core-first table from an independent scipy implementation
+    // (no baryons, t_age = 10 Gyr).
+    for (rho0, sigma0, sigma_m, r1, rho_s, r_s) in [
+        (1e8, 40.0, 3.0, 6.1868, 7.4295e7, 2.1559),
+        (3e7, 60.0, 1.0, 7.8435, 8.2006e6, 10.280),
+        (5e8, 25.0, 0.5, 1.3332, 3.2936e8, 0.63941),
+    ] {
+        let halo = core_first(&setup(sigma_m, &NoBaryons), rho0, sigma0).expect("solves");
+        let s = halo.summary();
+        assert_relative_eq!(s.r1_kpc, r1, max_relative = 1e-4);
+        assert_relative_eq!(s.rho_s_msun_kpc3, rho_s, max_relative = 1e-4);
+        assert_relative_eq!(s.r_s_kpc, r_s, max_relative = 1e-4);
+    }
+}
+
+#[test]
+fn halo_first_matches_scipy_reference_table() {
+    // Reference: physics reference, halo-first table (two independent scipy implementations
+    // agree to ~1e-6): M200 = 1e11 Msun, c = 10, H0 = 70, t_age = 10 Gyr.
+    let cosmo = Cosmology::default();
+    let nfw = Nfw::from_m200_c200(1e11, 10.0, &cosmo).expect("valid");
+    let light = Hernquist::new(1e9, 2.0).expect("valid");
+    let heavy = Hernquist::new(3e9, 1.5).expect("valid");
+    let cases: [(f64, &dyn EnclosedMass, Branch, f64, f64, f64); 5] = [
+        (
+            3.0,
+            &NoBaryons,
+            Branch::LowestDensity,
+            1.63902e7,
+            49.6840,
+            10.01079,
+        ),
+        (
+            3.0,
+            &light,
+            Branch::LowestDensity,
+            2.94653e7,
+            52.4072,
+            10.27757,
+        ),
+        (
+            3.0,
+            &heavy,
+            Branch::LowestDensity,
+            1.39387e8,
+            58.6733,
+            10.85993,
+        ),
+        (
+            10.0,
+            &NoBaryons,
+            Branch::LowestDensity,
+            1.004189e7,
+            50.8630,
+            17.6629,
+        ),
+        (
+            10.0,
+            &NoBaryons,
+            Branch::Index(1),
+            2.878857e9,
+            59.3214,
+            18.8781,
+        ),
+    ];
+    for (sigma_m, baryons, branch, rho0, sigma0, r1) in cases {
+        let halo = halo_first(&setup(sigma_m, baryons), &nfw, branch).expect("solves");
+        assert_relative_eq!(halo.rho0_msun_kpc3(), rho0, max_relative = 1e-4);
+        assert_relative_eq!(halo.sigma0_kms(), sigma0, max_relative = 1e-4);
+        assert_relative_eq!(halo.r1_kpc(), r1, max_relative = 1e-4);
+    }
+}
+
+#[test]
+fn halo_first_velocities_match_scipy() {
+    // Reference: physics reference: σ/m = 3, no baryons, M200 = 1e11, c = 10.
+    let cosmo = Cosmology::default();
+    let nfw = Nfw::from_m200_c200(1e11, 10.0, &cosmo).expect("valid");
+    let halo = halo_first(&setup(3.0, &NoBaryons), &nfw, Branch::LowestDensity).expect("solves");
+    for (r, v_sidm, v_nfw) in [
+        (0.5, 8.554, 27.129),
+        (1.0, 16.883, 37.140),
+        (2.0, 32.125, 49.418),
+        (5.0, 61.834, 66.744),
+    ] {
+        assert_relative_eq!(halo.v_circ_kms(r), v_sidm, max_relative = 1e-3);
+        assert_relative_eq!(nfw.v_circ_kms(r), v_nfw, max_relative = 1e-4);
+    }
+}
+
+#[test]
+fn halo_first_reports_no_solution() {
+    // Reference: physics reference: no solution for σ/m = 100 without baryons, nor for σ/m = 3
+    // with a Hernquist M = 5e9, a = 1 kpc.
+    let cosmo = Cosmology::default();
+    let nfw = Nfw::from_m200_c200(1e11, 10.0, &cosmo).expect("valid");
+    assert!(matches!(
+        halo_first(&setup(100.0, &NoBaryons), &nfw, Branch::LowestDensity),
+        Err(PhysicsError::NoSolution { .. })
+    ));
+    let dense = Hernquist::new(5e9, 1.0).expect("valid");
+    assert!(matches!(
+        halo_first(&setup(3.0, &dense), &nfw, Branch::LowestDensity),
+        Err(PhysicsError::NoSolution { .. })
+    ));
+}
+
+#[test]
+fn halo_first_finds_three_solutions_for_the_reference_halo() {
+    // Reference: physics reference: the NFW halo matched by (ρ0, σ0) = (7e7, 35) with σ/m = 2,
+    // 10 Gyr and no baryons is also matched by about (2.49e10, 40.74) and (2.60e11, 39.18).
+    let s = setup(2.0, &NoBaryons);
+    let start = core_first(&s, 7e7, 35.0).expect("solves");
+    let all = halo_first_all(&s, start.nfw()).expect("solves");
+    assert!(all.len() >= 3, "found {} solutions", all.len());
+    assert_relative_eq!(all[0].rho0_msun_kpc3(), 7e7, max_relative = 1e-6);
+    assert_relative_eq!(all[1].rho0_msun_kpc3(), 2.49e10, max_relative = 1e-2);
+    assert_relative_eq!(all[1].sigma0_kms(), 40.74, max_relative = 1e-3);
+    assert_relative_eq!(all[2].rho0_msun_kpc3(), 2.60e11, max_relative = 1e-2);
+    assert_relative_eq!(all[2].sigma0_kms(), 39.18, max_relative = 1e-3);
+    for (k, halo) in all.iter().enumerate() {
+        assert_eq!(halo.summary().branch, Some(k));
+    }
+    assert!(matches!(
+        halo_first(&s, start.nfw(), Branch::Index(99)),
+        Err(PhysicsError::BranchUnavailable { requested: 99, .. })
+    ));
+}
+
+#[test]
+fn matching_conditions_hold_at_r1() {
+    let bulge = Hernquist::new(2e9, 1.0).expect("valid");
+    let halo = core_first(&setup(2.0, &bulge), 2e8, 45.0).expect("solves");
+    let r1 = halo.r1_kpc();
+    let nfw = *halo.nfw();
+    let inside = r1 * (1.0 - 1e-12);
+    assert_relative_eq!(
+        halo.density_msun_kpc3(inside),
+        nfw.density_msun_kpc3(r1),
+        max_relative = 1e-9
+    );
+    assert_relative_eq!(
+        halo.enclosed_mass_msun(inside),
+        nfw.enclosed_mass_msun(r1),
+        max_relative = 1e-9
+    );
+}
+
+#[test]
+fn small_cross_section_recovers_nfw() {
+    let cosmo = Cosmology::default();
+    let nfw = Nfw::from_v200_c200(80.0, 12.0, &cosmo).expect("valid");
+    let halo = halo_first(&setup(1e-4, &NoBaryons), &nfw, Branch::LowestDensity).expect("solves");
+    assert!(halo.r1_kpc() < 0.05, "r1 = {}", halo.r1_kpc());
+    for r in [0.5, 1.0, 3.0, 10.0, 40.0] {
+        assert_relative_eq!(halo.v_circ_kms(r), nfw.v_circ_kms(r), max_relative = 1e-3);
+    }
+}
+
+#[test]
+fn bad_inputs_are_typed_errors() {
+    let s = setup(1.0, &NoBaryons);
+    assert!(matches!(
+        core_first(&s, f64::NAN, 30.0),
+        Err(PhysicsError::NonFinite { .. })
+    ));
+    assert!(matches!(
+        core_first(&s, 1e7, -3.0),
+        Err(PhysicsError::NonPositive { .. })
+    ));
+    assert!(matches!(
+        core_first(&s, 10.0, 30.0),
+        Err(PhysicsError::NoCore { .. })
+    ));
+    assert!(matches!(
+        core_first(&setup(0.0, &NoBaryons), 1e8, 30.0),
+        Err(PhysicsError::NonPositive { .. })
+    ));
+}
