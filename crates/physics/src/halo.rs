@@ -96,17 +96,13 @@ impl Nfw {
     pub fn virial(&self, cosmology: &Cosmology) -> Result<VirialQuantities, PhysicsError> {
         let target = self.rho_s_msun_kpc3
             / (VIRIAL_OVERDENSITY / 3.0 * cosmology.critical_density_msun_kpc3());
-        // c³/f(c) increases monotonically from 2 (c → 0); work in ln c.
         let residual = |ln_c: f64| {
             let c = ln_c.exp();
             (c.powi(3) / nfw_mass_function(c)).ln() - target.ln()
         };
-        if target <= 2.0 {
-            return Err(PhysicsError::NoConvergence {
-                what: "c200 (scale density below 200 times critical)",
-            });
-        }
-        let ln_c = brent(residual, -10.0, 12.0, 1e-14, "c200 from scale density")?;
+        // c³/f(c) rises monotonically from 2c (c → 0) to c³/ln c: a bracket in ln c always holds
+        // for the densities of real halos.
+        let ln_c = brent(residual, -30.0, 30.0, 1e-14, "c200 from scale density")?;
         let c200 = ln_c.exp();
         let r200_kpc = c200 * self.r_s_kpc;
         let v200_kms = cosmology.v200_kms_from_r200(r200_kpc);

@@ -46,7 +46,10 @@ pub(crate) fn brent<F: FnMut(f64) -> f64>(
         if e.abs() >= tol && fa.abs() > fb.abs() {
             let s = fb / fa;
             let (mut p, mut q);
-            if a == c {
+            // Exact equality is intended: c was copied from a when the bracket was reset.
+            #[allow(clippy::float_cmp)]
+            let copied = a == c;
+            if copied {
                 p = 2.0 * m * s;
                 q = 1.0 - s;
             } else {

@@ -118,47 +118,108 @@ pub(super) fn baryon_free_seeds(
     nfw: &Nfw,
 ) -> Result<Vec<(f64, f64)>, PhysicsError> {
     let grid = universal_profile();
+    let on_profile = |t: f64, guess: Option<f64>| {
+        let (psi, m) = grid.state_at(t);
+        candidate(setup, nfw, t, psi, m, guess)
+    };
+    let root_between = |t_low: f64, t_high: f64| {
+        let root = brent(
+            |t| on_profile(t, None).map_or(f64::NAN, |c| c.discrepancy),
+            t_low,
+            t_high,
+            1e-13,
+            "baryon-free matching scan",
+        )
+        .ok()?;
+        on_profile(root, None).map(|c| (c.rho0_msun_kpc3, c.sigma0_kms))
+    };
     let mut seeds = Vec::new();
-    let mut previous: Option<(f64, f64)> = None;
+    // The last two valid (t, discrepancy) pairs, newest last.
+    let mut recent: Vec<(f64, f64)> = Vec::with_capacity(3);
     let mut guess = None;
     for (i, node) in grid.nodes.iter().enumerate() {
         let t = grid.t_start + i as f64 * STEP_LN_XI;
         let Some(here) = candidate(setup, nfw, t, node.psi, node.m, guess) else {
-            previous = None;
+            recent.clear();
             guess = None;
             continue;
         };
         guess = Some(here.x);
-        if previous.is_none() && i > 0 && here.discrepancy > 0.0 {
+        let d = here.discrepancy;
+        if recent.is_empty() && i > 0 && d > 0.0 {
             // Entering the matchable region (mass ratio just above 1/2): there x → 0 and the
             // discrepancy → −∞, so a root may lie between the threshold and this node.
-            let t_before = t - STEP_LN_XI;
-            if let Some(seed) = seed_near_threshold(setup, nfw, grid, t_before, t) {
+            if let Some(seed) = seed_near_threshold(setup, nfw, grid, t - STEP_LN_XI, t) {
                 seeds.push(seed);
             }
         }
-        if let Some((t_before, d_before)) = previous
-            && (d_before < 0.0) != (here.discrepancy < 0.0)
+        if let Some(&(t_before, d_before)) = recent.last()
+            && (d_before < 0.0) != (d < 0.0)
+            && let Some(seed) = root_between(t_before, t)
         {
-            let on_profile = |t: f64| {
-                let (psi, m) = grid.state_at(t);
-                candidate(setup, nfw, t, psi, m, guess)
-            };
-            let root = brent(
-                |t| on_profile(t).map_or(f64::NAN, |c| c.discrepancy),
-                t_before,
-                t,
-                1e-13,
-                "baryon-free matching scan",
-            );
-            if let Some(found) = root.ok().and_then(on_profile) {
-                seeds.push((found.rho0_msun_kpc3, found.sigma0_kms));
-            }
+            seeds.push(seed);
         }
-        previous = Some((t, here.discrepancy));
+        if let [(t_a, d_a), (_, d_b)] = recent[..]
+            && (d_b - d_a) * (d - d_b) < 0.0
+            && (d_a < 0.0) == (d_b < 0.0)
+            && (d_b < 0.0) == (d < 0.0)
+        {
+            // An extremum of the discrepancy between grid nodes that does not change sign there
+            // may still touch or cross zero (two close solutions near a fold of the mass ratio).
+            seeds.extend(roots_near_extremum(
+                &on_profile,
+                &root_between,
+                t_a,
+                t,
+                d_b > d_a,
+            ));
+        }
+        recent.push((t, d));
+        if recent.len() > 2 {
+            recent.remove(0);
+        }
     }
     seeds.sort_by(|a, b| a.0.total_cmp(&b.0));
     Ok(seeds)
+}
+
+/// Locates the extremum of the discrepancy in [t_low, t_high] by golden-section search; when it
+/// reaches zero, returns the roots on either side (or the extremum itself when it touches zero
+/// within the interpolation accuracy of the universal profile).
+fn roots_near_extremum(
+    on_profile: &dyn Fn(f64, Option<f64>) -> Option<Candidate>,
+    root_between: &dyn Fn(f64, f64) -> Option<(f64, f64)>,
+    t_low: f64,
+    t_high: f64,
+    is_maximum: bool,
+) -> Vec<(f64, f64)> {
+    let sign = if is_maximum { 1.0 } else { -1.0 };
+    let value = |t: f64| on_profile(t, None).map_or(f64::NEG_INFINITY, |c| sign * c.discrepancy);
+    let golden = 0.5 * (5f64.sqrt() - 1.0);
+    let (mut a, mut b) = (t_low, t_high);
+    for _ in 0..60 {
+        let c = b - golden * (b - a);
+        let d = a + golden * (b - a);
+        if value(c) > value(d) {
+            b = d;
+        } else {
+            a = c;
+        }
+    }
+    let t_peak = 0.5 * (a + b);
+    let peak = value(t_peak);
+    if peak > 0.0 {
+        [root_between(t_low, t_peak), root_between(t_peak, t_high)]
+            .into_iter()
+            .flatten()
+            .collect()
+    } else if peak > -1e-6 {
+        on_profile(t_peak, None)
+            .map(|c| vec![(c.rho0_msun_kpc3, c.sigma0_kms)])
+            .unwrap_or_default()
+    } else {
+        Vec::new()
+    }
 }
 
 /// Finds a root of the discrepancy between the point where the universal mass ratio crosses 1/2
@@ -198,6 +259,81 @@ fn seed_near_threshold(
     None
 }
 
+/// Grid of the baryon search: σ0 values (logarithmic) and ψ1 = ln(ρ0/ρ1) values (geometric).
+const GRID_DISPERSIONS: usize = 32;
+const GRID_PSI: usize = 30;
+const GRID_PSI_RANGE: (f64, f64) = (0.02, 20.0);
+const GRID_DISPERSION_RANGE: (f64, f64) = (0.03, 4.0);
+
+/// Solutions with the baryons included from the start. The matching residuals are tabulated on a
+/// grid of (ψ1 = ln(ρ0/ρ1), ln σ0) — ψ1 ∈ (0, 20] covers every core from barely thermalised to
+/// ρ0/ρ1 ≈ 5·10⁸ — and Newton's method starts from every cell across which both residuals
+/// change sign. Slower than continuation (about a thousand integrations), but it finds solutions
+/// that exist only because of the baryons or lie on a denser core branch at the same σ0.
+pub(super) fn grid_search(setup: &SidmSetup, nfw: &Nfw) -> Vec<(f64, f64)> {
+    // The halo's and the baryons' velocity scales set the range of σ0.
+    let v_halo = nfw.v_circ_kms(2.16258 * nfw.r_s_kpc);
+    let v_baryons =
+        (G_KPC_KMS2_PER_MSUN * setup.baryons.enclosed_mass_msun(nfw.r_s_kpc) / nfw.r_s_kpc).sqrt();
+    let v_scale = v_halo.max(v_baryons);
+    let (low, high) = (
+        (GRID_DISPERSION_RANGE.0 * v_scale).ln(),
+        (GRID_DISPERSION_RANGE.1 * v_scale).ln(),
+    );
+    let psi_ratio = (GRID_PSI_RANGE.1 / GRID_PSI_RANGE.0).powf(1.0 / (GRID_PSI - 1) as f64);
+    let point = |i: usize, j: f64| -> [f64; 2] {
+        let ln_sigma0 = low + (high - low) * i as f64 / (GRID_DISPERSIONS - 1) as f64;
+        let psi1 = GRID_PSI_RANGE.0 * psi_ratio.powf(j);
+        let rho1 = setup
+            .cross_section
+            .rate_density_msun_kpc3(ln_sigma0.exp(), setup.age_gyr);
+        [rho1.ln() + psi1, ln_sigma0]
+    };
+    let mut values = Vec::with_capacity(GRID_DISPERSIONS * GRID_PSI);
+    for i in 0..GRID_DISPERSIONS {
+        for j in 0..GRID_PSI {
+            values.push(matching_residual(
+                setup,
+                nfw,
+                setup.baryons,
+                point(i, j as f64),
+            ));
+        }
+    }
+    let mut seeds: Vec<(f64, f64)> = Vec::new();
+    for i in 0..GRID_DISPERSIONS - 1 {
+        for j in 0..GRID_PSI - 1 {
+            let corners = [
+                values[i * GRID_PSI + j],
+                values[i * GRID_PSI + j + 1],
+                values[(i + 1) * GRID_PSI + j],
+                values[(i + 1) * GRID_PSI + j + 1],
+            ];
+            let Some(corners) = corners.into_iter().collect::<Option<Vec<[f64; 2]>>>() else {
+                continue;
+            };
+            let straddles = |k: usize| {
+                corners.iter().any(|c| c[k] <= 0.0) && corners.iter().any(|c| c[k] >= 0.0)
+            };
+            if !(straddles(0) && straddles(1)) {
+                continue;
+            }
+            // Cell centre: halfway in ln σ0 and in ln ψ1.
+            let [ln_rho_a, ln_sigma_a] = point(i, j as f64 + 0.5);
+            let ln_sigma_b = point(i + 1, 0.0)[1];
+            let ln_sigma = 0.5 * (ln_sigma_a + ln_sigma_b);
+            let ln_rho0 = ln_rho_a + (ln_sigma_a - ln_sigma); // ρ1 ∝ 1/σ0 for a constant σ/m
+            if let Some(u) = newton(setup, nfw, setup.baryons, [ln_rho0, ln_sigma], 30) {
+                let solution = (u[0].exp(), u[1].exp());
+                if !seeds.iter().any(|s| (s.0 / solution.0 - 1.0).abs() < 1e-6) {
+                    seeds.push(solution);
+                }
+            }
+        }
+    }
+    seeds
+}
+
 /// Log-residuals of the matching conditions at u = (ln ρ0, ln σ0): the core's r1 and M(r1)
 /// against the target NFW halo's radius and mass at the rate density.
 fn matching_residual(
@@ -210,7 +346,7 @@ fn matching_residual(
     let rho1 = setup
         .cross_section
         .rate_density_msun_kpc3(sigma0, setup.age_gyr);
-    if !(rho1 < rho0) {
+    if rho1.is_nan() || rho1 >= rho0 {
         return None;
     }
     let problem = JeansProblem::new(rho0, sigma0, baryons);

@@ -10,13 +10,14 @@
 //! Two parameterisations:
 //! - [`core_first`] (ρ0, σ0) → r1 and the matched NFW halo: one integration and one 1-D root.
 //! - [`halo_first`] (NFW halo) → (ρ0, σ0): a 2-D root-find with several solutions in general
-//!   (the isothermal sphere's mass–density relation oscillates). Candidates come from the
-//!   baryon-free problem, which is scale-free and so reduces to a 1-D scan of one universal
-//!   isothermal profile; each candidate is then followed by Newton's method while the baryons
-//!   are switched on in steps (continuation). Solutions are ordered by central density;
+//!   (the isothermal sphere's mass–density relation oscillates). Candidates come from two
+//!   searches. (a) The baryon-free problem is scale-free, so its solutions are the roots of a
+//!   1-D function along one universal isothermal profile; each is followed by Newton's method
+//!   while the baryons are switched on in steps (continuation). (b) With baryons, the matching
+//!   residuals are tabulated on a grid of (ln(ρ0/ρ1), ln σ0) and Newton's method starts in
+//!   every cell where both change sign; this catches solutions that exist only because of the
+//!   baryons. Solutions are ordered by central density;
 //!   [`Branch::LowestDensity`] (the default, the core-expansion phase) is branch 0.
-//!   Limitation: a solution that exists only with baryons and does not connect to a baryon-free
-//!   one is not found.
 
 mod jeans;
 mod matching;
@@ -176,31 +177,7 @@ pub fn halo_first(setup: &SidmSetup, nfw: &Nfw, branch: Branch) -> Result<SidmHa
         Branch::LowestDensity => 0,
         Branch::Index(k) => k,
     };
-    let seeds = matching::baryon_free_seeds(setup, nfw)?;
-    if seeds.is_empty() {
-        return Err(PhysicsError::NoSolution {
-            reason: "the rate condition puts r1 where the NFW halo's mass is too large for any isothermal core; lower sigma/m or the halo age".into(),
-        });
-    }
-    let mut found: Vec<(f64, f64)> = Vec::new();
-    for seed in &seeds {
-        if let Some(solution) = matching::follow_with_baryons(setup, nfw, *seed)
-            && !found
-                .iter()
-                .any(|known| (known.0 / solution.0 - 1.0).abs() < 1e-6)
-        {
-            found.push(solution);
-            found.sort_by(|a, b| a.0.total_cmp(&b.0));
-            if found.len() > wanted && matches!(branch, Branch::LowestDensity) {
-                break;
-            }
-        }
-    }
-    if found.is_empty() {
-        return Err(PhysicsError::NoSolution {
-            reason: "the baryons leave no isothermal core that continues this NFW halo".into(),
-        });
-    }
+    let found = all_solutions(setup, nfw)?;
     let Some(&(rho0, sigma0)) = found.get(wanted) else {
         return Err(PhysicsError::BranchUnavailable {
             requested: wanted,
@@ -215,18 +192,7 @@ pub fn halo_first(setup: &SidmSetup, nfw: &Nfw, branch: Branch) -> Result<SidmHa
 /// Every halo-first solution found, in order of increasing central density.
 pub fn halo_first_all(setup: &SidmSetup, nfw: &Nfw) -> Result<Vec<SidmHalo>, PhysicsError> {
     validate_setup(setup)?;
-    let mut found: Vec<(f64, f64)> = Vec::new();
-    for seed in matching::baryon_free_seeds(setup, nfw)? {
-        if let Some(solution) = matching::follow_with_baryons(setup, nfw, seed)
-            && !found
-                .iter()
-                .any(|known| (known.0 / solution.0 - 1.0).abs() < 1e-6)
-        {
-            found.push(solution);
-        }
-    }
-    found.sort_by(|a, b| a.0.total_cmp(&b.0));
-    found
+    all_solutions(setup, nfw)?
         .into_iter()
         .enumerate()
         .map(|(k, (rho0, sigma0))| {
@@ -235,6 +201,30 @@ pub fn halo_first_all(setup: &SidmSetup, nfw: &Nfw) -> Result<Vec<SidmHalo>, Phy
             Ok(halo)
         })
         .collect()
+}
+
+/// (ρ0, σ0) of every solution found, in order of increasing ρ0; an error when there is none.
+fn all_solutions(setup: &SidmSetup, nfw: &Nfw) -> Result<Vec<(f64, f64)>, PhysicsError> {
+    let mut found: Vec<(f64, f64)> = matching::baryon_free_seeds(setup, nfw)?
+        .into_iter()
+        .filter_map(|seed| matching::follow_with_baryons(setup, nfw, seed))
+        .collect();
+    if !setup.baryons.is_massless() {
+        found.extend(matching::grid_search(setup, nfw));
+    }
+    found.sort_by(|a, b| a.0.total_cmp(&b.0));
+    found.dedup_by(|a, b| (a.0 / b.0 - 1.0).abs() < 1e-6);
+    if found.is_empty() {
+        let reason = if setup.baryons.is_massless() {
+            "the rate condition puts r1 where the NFW halo's mass is too large for any isothermal core; lower sigma/m or the halo age"
+        } else {
+            "with these baryons no isothermal core continues this NFW halo; lower sigma/m, the halo age or the baryonic mass"
+        };
+        return Err(PhysicsError::NoSolution {
+            reason: reason.into(),
+        });
+    }
+    Ok(found)
 }
 
 impl SidmHalo {
