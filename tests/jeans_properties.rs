@@ -21,7 +21,13 @@ fn rel(a: f64, b: f64) -> f64 {
 }
 
 proptest! {
-    #![proptest_config(ProptestConfig::with_cases(64))]
+    // Seeded so that CI runs the same cases every time; raise PROPTEST_CASES for a longer search.
+    #![proptest_config(ProptestConfig {
+        cases: 128,
+        rng_seed: proptest::test_runner::RngSeed::Fixed(20_261_202),
+        failure_persistence: None,
+        ..ProptestConfig::default()
+    })]
 
     #[test]
     fn density_and_mass_are_continuous_at_r1(
@@ -61,19 +67,18 @@ proptest! {
         let s = setup(10f64.powf(log_sigma_m), baryons);
         let rho0 = 10f64.powf(log_rho0);
         let Ok(start) = sidm::core_first(&s, rho0, sigma0) else { return Ok(()) };
-        let all = sidm::halo_first_all(&s, start.nfw()).expect("the starting core is a solution");
-        // Every solution continues the same NFW halo.
-        for halo in &all {
-            prop_assert!(rel(halo.nfw().rho_s_msun_kpc3, start.nfw().rho_s_msun_kpc3) < 1e-7);
-            prop_assert!(rel(halo.nfw().r_s_kpc, start.nfw().r_s_kpc) < 1e-7);
-        }
-        // The starting core is among them.
-        let position = all.iter().position(|h| rel(h.rho0_msun_kpc3(), rho0) < 1e-6);
-        prop_assert!(position.is_some(), "start ({rho0:e}, {sigma0}) not recovered from {} solutions", all.len());
-        // When it is the lowest-density solution, the default branch returns it exactly.
-        if position == Some(0) {
-            let back = sidm::halo_first(&s, start.nfw(), Branch::LowestDensity).expect("solves");
-            prop_assert!(rel(back.rho0_msun_kpc3(), rho0) < 1e-6);
+        // The starting core is a solution, so the default (lowest-density) solve must succeed,
+        // continue the same NFW halo, and have a central density no higher than the start's.
+        let back = sidm::halo_first(&s, start.nfw(), Branch::LowestDensity)
+            .map_err(|e| TestCaseError::fail(format!("start ({rho0:e}, {sigma0}) exists but: {e}")))?;
+        prop_assert!(rel(back.nfw().rho_s_msun_kpc3, start.nfw().rho_s_msun_kpc3) < 1e-7);
+        prop_assert!(rel(back.nfw().r_s_kpc, start.nfw().r_s_kpc) < 1e-7);
+        prop_assert!(
+            back.rho0_msun_kpc3() <= rho0 * (1.0 + 1e-6),
+            "missed the start ({rho0:e}, {sigma0}): lowest found {:e}", back.rho0_msun_kpc3()
+        );
+        // When the start is the lowest-density solution, the round trip returns it exactly.
+        if rel(back.rho0_msun_kpc3(), rho0) < 1e-6 {
             prop_assert!(rel(back.sigma0_kms(), sigma0) < 1e-7);
         }
     }

@@ -55,6 +55,7 @@ fn fixture() -> Fixture {
 
 fn close(name: &str, got: f64, want: f64) {
     let err = (got / want - 1.0).abs();
+    eprintln!("{name}: relative error {err:.2e}");
     assert!(
         err < TOLERANCE,
         "{name}: got {got}, scipy {want} (rel. error {err:e})"

@@ -4,7 +4,7 @@
 use std::sync::OnceLock;
 
 use super::SidmSetup;
-use super::jeans::{GridSolution, JeansProblem, STEP_LN_XI};
+use super::jeans::{GridSolution, JeansProblem, SEARCH_STEP_LN_XI, STEP_LN_XI};
 use crate::PhysicsError;
 use crate::baryons::{EnclosedMass, NoBaryons, ScaledMass};
 use crate::halo::{HaloProfile, Nfw, nfw_mass_function};
@@ -138,7 +138,7 @@ pub(super) fn baryon_free_seeds(
     let mut recent: Vec<(f64, f64)> = Vec::with_capacity(3);
     let mut guess = None;
     for (i, node) in grid.nodes.iter().enumerate() {
-        let t = grid.t_start + i as f64 * STEP_LN_XI;
+        let t = grid.t_start + i as f64 * grid.step_ln_xi;
         let Some(here) = candidate(setup, nfw, t, node.psi, node.m, guess) else {
             recent.clear();
             guess = None;
@@ -149,7 +149,7 @@ pub(super) fn baryon_free_seeds(
         if recent.is_empty() && i > 0 && d > 0.0 {
             // Entering the matchable region (mass ratio just above 1/2): there x → 0 and the
             // discrepancy → −∞, so a root may lie between the threshold and this node.
-            if let Some(seed) = seed_near_threshold(setup, nfw, grid, t - STEP_LN_XI, t) {
+            if let Some(seed) = seed_near_threshold(setup, nfw, grid, t - grid.step_ln_xi, t) {
                 seeds.push(seed);
             }
         }
@@ -260,8 +260,8 @@ fn seed_near_threshold(
 }
 
 /// Grid of the baryon search: σ0 values (logarithmic) and ψ1 = ln(ρ0/ρ1) values (geometric).
-const GRID_DISPERSIONS: usize = 32;
-const GRID_PSI: usize = 30;
+const GRID_DISPERSIONS: usize = 24;
+const GRID_PSI: usize = 24;
 const GRID_PSI_RANGE: (f64, f64) = (0.02, 20.0);
 const GRID_DISPERSION_RANGE: (f64, f64) = (0.03, 4.0);
 
@@ -281,8 +281,9 @@ pub(super) fn grid_search(setup: &SidmSetup, nfw: &Nfw) -> Vec<(f64, f64)> {
         (GRID_DISPERSION_RANGE.1 * v_scale).ln(),
     );
     let psi_ratio = (GRID_PSI_RANGE.1 / GRID_PSI_RANGE.0).powf(1.0 / (GRID_PSI - 1) as f64);
-    let point = |i: usize, j: f64| -> [f64; 2] {
-        let ln_sigma0 = low + (high - low) * i as f64 / (GRID_DISPERSIONS - 1) as f64;
+    // (ln ρ0, ln σ0) at fractional grid position (i, j).
+    let point = |i: f64, j: f64| -> [f64; 2] {
+        let ln_sigma0 = low + (high - low) * i / (GRID_DISPERSIONS - 1) as f64;
         let psi1 = GRID_PSI_RANGE.0 * psi_ratio.powf(j);
         let rho1 = setup
             .cross_section
@@ -296,7 +297,8 @@ pub(super) fn grid_search(setup: &SidmSetup, nfw: &Nfw) -> Vec<(f64, f64)> {
                 setup,
                 nfw,
                 setup.baryons,
-                point(i, j as f64),
+                point(i as f64, j as f64),
+                SEARCH_STEP_LN_XI,
             ));
         }
     }
@@ -312,18 +314,11 @@ pub(super) fn grid_search(setup: &SidmSetup, nfw: &Nfw) -> Vec<(f64, f64)> {
             let Some(corners) = corners.into_iter().collect::<Option<Vec<[f64; 2]>>>() else {
                 continue;
             };
-            let straddles = |k: usize| {
-                corners.iter().any(|c| c[k] <= 0.0) && corners.iter().any(|c| c[k] >= 0.0)
-            };
-            if !(straddles(0) && straddles(1)) {
+            let Some((along_sigma, along_psi)) = bilinear_zero(&corners) else {
                 continue;
-            }
-            // Cell centre: halfway in ln σ0 and in ln ψ1.
-            let [ln_rho_a, ln_sigma_a] = point(i, j as f64 + 0.5);
-            let ln_sigma_b = point(i + 1, 0.0)[1];
-            let ln_sigma = 0.5 * (ln_sigma_a + ln_sigma_b);
-            let ln_rho0 = ln_rho_a + (ln_sigma_a - ln_sigma); // ρ1 ∝ 1/σ0 for a constant σ/m
-            if let Some(u) = newton(setup, nfw, setup.baryons, [ln_rho0, ln_sigma], 30) {
+            };
+            let start = point(i as f64 + along_sigma, j as f64 + along_psi);
+            if let Some(u) = newton(setup, nfw, setup.baryons, start, 15) {
                 let solution = (u[0].exp(), u[1].exp());
                 if !seeds.iter().any(|s| (s.0 / solution.0 - 1.0).abs() < 1e-6) {
                     seeds.push(solution);
@@ -331,7 +326,44 @@ pub(super) fn grid_search(setup: &SidmSetup, nfw: &Nfw) -> Vec<(f64, f64)> {
             }
         }
     }
+    let partners = partners_of(setup, nfw, &seeds);
+    seeds.extend(partners);
     seeds
+}
+
+/// Where both residuals vanish in the bilinear interpolation of a grid cell, as fractions of the
+/// cell along its two sides (corners ordered (0,0), (0,1), (1,0), (1,1)); None when the
+/// interpolated zero lies outside the cell (with a small margin).
+fn bilinear_zero(corners: &[[f64; 2]]) -> Option<(f64, f64)> {
+    let [c00, c01, c10, c11] = [corners[0], corners[1], corners[2], corners[3]];
+    let value = |a: f64, b: f64, k: usize| {
+        c00[k]
+            + a * (c10[k] - c00[k])
+            + b * (c01[k] - c00[k])
+            + a * b * (c11[k] - c10[k] - c01[k] + c00[k])
+    };
+    let (mut a, mut b) = (0.5, 0.5);
+    for _ in 0..20 {
+        let f = [value(a, b, 0), value(a, b, 1)];
+        let mut jacobian = [[0.0; 2]; 2];
+        for k in 0..2 {
+            let cross = c11[k] - c10[k] - c01[k] + c00[k];
+            jacobian[k] = [c10[k] - c00[k] + b * cross, c01[k] - c00[k] + a * cross];
+        }
+        let det = jacobian[0][0] * jacobian[1][1] - jacobian[0][1] * jacobian[1][0];
+        if !det.is_finite() || det.abs() < 1e-300 {
+            return None;
+        }
+        let da = (jacobian[1][1] * f[0] - jacobian[0][1] * f[1]) / det;
+        let db = (-jacobian[1][0] * f[0] + jacobian[0][0] * f[1]) / det;
+        a -= da.clamp(-1.0, 1.0);
+        b -= db.clamp(-1.0, 1.0);
+        if da.abs() + db.abs() < 1e-10 {
+            break;
+        }
+    }
+    let inside = |x: f64| (-0.1..=1.1).contains(&x);
+    (inside(a) && inside(b)).then_some((a, b))
 }
 
 /// Log-residuals of the matching conditions at u = (ln ρ0, ln σ0): the core's r1 and M(r1)
@@ -341,6 +373,7 @@ fn matching_residual(
     nfw: &Nfw,
     baryons: &dyn EnclosedMass,
     u: [f64; 2],
+    step_ln_xi: f64,
 ) -> Option<[f64; 2]> {
     let (rho0, sigma0) = (u[0].exp(), u[1].exp());
     let rho1 = setup
@@ -349,7 +382,7 @@ fn matching_residual(
     if rho1.is_nan() || rho1 >= rho0 {
         return None;
     }
-    let problem = JeansProblem::new(rho0, sigma0, baryons);
+    let problem = JeansProblem::new(rho0, sigma0, baryons).with_step(step_ln_xi);
     let crossing = problem
         .integrate((rho0 / rho1).ln(), f64::INFINITY, None)
         .ok()??;
@@ -373,17 +406,40 @@ fn newton(
     start: [f64; 2],
     max_iterations: usize,
 ) -> Option<[f64; 2]> {
+    deflated_newton(setup, nfw, baryons, start, max_iterations, &[])
+}
+
+/// Newton's method on the residual multiplied by Π_k (1 + 1/|u − u_k|²) over the known roots
+/// u_k (deflation, Farrell, Birkisson & Funke 2015): the known roots repel the iteration, so it
+/// can find a second root close to a first one (two solutions near a fold). Convergence is
+/// judged on the undeflated residual.
+fn deflated_newton(
+    setup: &SidmSetup,
+    nfw: &Nfw,
+    baryons: &dyn EnclosedMass,
+    start: [f64; 2],
+    max_iterations: usize,
+    known: &[[f64; 2]],
+) -> Option<[f64; 2]> {
+    let evaluate = |u: [f64; 2]| -> Option<([f64; 2], [f64; 2])> {
+        let raw = matching_residual(setup, nfw, baryons, u, STEP_LN_XI)?;
+        let factor: f64 = known
+            .iter()
+            .map(|k| 1.0 + 1.0 / ((u[0] - k[0]).powi(2) + (u[1] - k[1]).powi(2)))
+            .product();
+        Some((raw, [raw[0] * factor, raw[1] * factor]))
+    };
     let mut u = start;
-    let mut f = matching_residual(setup, nfw, baryons, u)?;
+    let (mut raw, mut f) = evaluate(u)?;
     for _ in 0..max_iterations {
-        if max_abs(f) < NEWTON_TOLERANCE {
+        if max_abs(raw) < NEWTON_TOLERANCE {
             return Some(u);
         }
         let mut jacobian = [[0.0; 2]; 2];
         for j in 0..2 {
             let mut shifted = u;
             shifted[j] += JACOBIAN_STEP;
-            let fj = matching_residual(setup, nfw, baryons, shifted)?;
+            let (_, fj) = evaluate(shifted)?;
             for i in 0..2 {
                 jacobian[i][j] = (fj[i] - f[i]) / JACOBIAN_STEP;
             }
@@ -404,21 +460,43 @@ fn newton(
         let mut accepted = false;
         for _ in 0..12 {
             let trial = [u[0] + alpha * step[0], u[1] + alpha * step[1]];
-            if let Some(ft) = matching_residual(setup, nfw, baryons, trial)
-                && max_abs(ft) < max_abs(f)
+            if let Some((trial_raw, trial_f)) = evaluate(trial)
+                && max_abs(trial_f) < max_abs(f)
             {
                 u = trial;
-                f = ft;
+                raw = trial_raw;
+                f = trial_f;
                 accepted = true;
                 break;
             }
             alpha *= 0.5;
         }
         if !accepted {
-            return (max_abs(f) < 100.0 * NEWTON_TOLERANCE).then_some(u);
+            return (max_abs(raw) < 100.0 * NEWTON_TOLERANCE).then_some(u);
         }
     }
-    (max_abs(f) < NEWTON_TOLERANCE).then_some(u)
+    (max_abs(raw) < NEWTON_TOLERANCE).then_some(u)
+}
+
+/// Looks for further solutions next to the ones already found (pairs of close solutions lie on
+/// either side of a fold), by deflated Newton from small offsets around each known root.
+fn partners_of(setup: &SidmSetup, nfw: &Nfw, found: &[(f64, f64)]) -> Vec<(f64, f64)> {
+    let mut known: Vec<[f64; 2]> = found.iter().map(|s| [s.0.ln(), s.1.ln()]).collect();
+    let mut partners = Vec::new();
+    for root in known.clone() {
+        for offset in [[0.05, 0.0], [-0.05, 0.0], [0.0, 0.02], [0.0, -0.02]] {
+            let start = [root[0] + offset[0], root[1] + offset[1]];
+            if let Some(u) = deflated_newton(setup, nfw, setup.baryons, start, 15, &known)
+                && known
+                    .iter()
+                    .all(|k| (k[0] - u[0]).abs() > 1e-6 || (k[1] - u[1]).abs() > 1e-6)
+            {
+                known.push(u);
+                partners.push((u[0].exp(), u[1].exp()));
+            }
+        }
+    }
+    partners
 }
 
 /// Follows a baryon-free solution while the baryons are switched on (mass × λ, λ: 0 → 1),
@@ -443,13 +521,13 @@ pub(super) fn follow_with_baryons(
             inner: setup.baryons,
             factor: target,
         };
-        if let Some(next) = newton(setup, nfw, &scaled, u, 20) {
+        if let Some(next) = newton(setup, nfw, &scaled, u, 12) {
             u = next;
             lambda = target;
             increment = (2.0 * increment).min(1.0);
         } else {
             increment *= 0.5;
-            if increment < 1.0 / 512.0 {
+            if increment < 1.0 / 64.0 {
                 return None;
             }
         }
