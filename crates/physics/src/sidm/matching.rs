@@ -260,8 +260,8 @@ fn seed_near_threshold(
 }
 
 /// Grid of the baryon search: σ0 values (logarithmic) and ψ1 = ln(ρ0/ρ1) values (geometric).
-const GRID_DISPERSIONS: usize = 24;
-const GRID_PSI: usize = 24;
+const GRID_DISPERSIONS: usize = 16;
+const GRID_PSI: usize = 20;
 const GRID_PSI_RANGE: (f64, f64) = (0.02, 20.0);
 const GRID_DISPERSION_RANGE: (f64, f64) = (0.03, 4.0);
 
@@ -478,15 +478,60 @@ fn deflated_newton(
     (max_abs(raw) < NEWTON_TOLERANCE).then_some(u)
 }
 
+/// Ratio of the smallest to the largest singular value of the matching Jacobian below which a
+/// root is treated as close to a fold, where a second root may sit nearby.
+const FOLD_CONDITION: f64 = 0.2;
+/// Distances in (ln ρ0, ln σ0) along the fold direction from which to look for a partner root.
+const PARTNER_OFFSETS: [f64; 2] = [0.05, -0.05];
+
+/// When the matching Jacobian at `root` is nearly singular, the unit vector along which the
+/// residual changes least (its right singular vector for the smallest singular value).
+fn fold_direction(setup: &SidmSetup, nfw: &Nfw, root: [f64; 2]) -> Option<[f64; 2]> {
+    let f = matching_residual(setup, nfw, setup.baryons, root, STEP_LN_XI)?;
+    let mut jacobian = [[0.0; 2]; 2];
+    for j in 0..2 {
+        let mut shifted = root;
+        shifted[j] += JACOBIAN_STEP;
+        let fj = matching_residual(setup, nfw, setup.baryons, shifted, STEP_LN_XI)?;
+        for i in 0..2 {
+            jacobian[i][j] = (fj[i] - f[i]) / JACOBIAN_STEP;
+        }
+    }
+    // Eigen-decomposition of JᵀJ = [[a, b], [b, c]].
+    let [[p, q], [r, t]] = jacobian;
+    let (a, b, c) = (p * p + r * r, p * q + r * t, q * q + t * t);
+    let mean = 0.5 * (a + c);
+    let spread = (0.25 * (a - c) * (a - c) + b * b).sqrt();
+    let (small, large) = (mean - spread, mean + spread);
+    if !(large > 0.0) || small.max(0.0).sqrt() >= FOLD_CONDITION * large.sqrt() {
+        return None;
+    }
+    let v = if b.abs() > 1e-300 {
+        [b, small - a]
+    } else if a <= c {
+        [1.0, 0.0]
+    } else {
+        [0.0, 1.0]
+    };
+    let norm = v[0].hypot(v[1]);
+    Some([v[0] / norm, v[1] / norm])
+}
+
 /// Looks for further solutions next to the ones already found (pairs of close solutions lie on
-/// either side of a fold), by deflated Newton from small offsets around each known root.
+/// either side of a fold), by deflated Newton from small offsets along the fold direction.
 fn partners_of(setup: &SidmSetup, nfw: &Nfw, found: &[(f64, f64)]) -> Vec<(f64, f64)> {
     let mut known: Vec<[f64; 2]> = found.iter().map(|s| [s.0.ln(), s.1.ln()]).collect();
     let mut partners = Vec::new();
     for root in known.clone() {
-        for offset in [[0.05, 0.0], [-0.05, 0.0], [0.0, 0.02], [0.0, -0.02]] {
-            let start = [root[0] + offset[0], root[1] + offset[1]];
-            if let Some(u) = deflated_newton(setup, nfw, setup.baryons, start, 15, &known)
+        let Some(direction) = fold_direction(setup, nfw, root) else {
+            continue;
+        };
+        for distance in PARTNER_OFFSETS {
+            let start = [
+                root[0] + distance * direction[0],
+                root[1] + distance * direction[1],
+            ];
+            if let Some(u) = deflated_newton(setup, nfw, setup.baryons, start, 10, &known)
                 && known
                     .iter()
                     .all(|k| (k[0] - u[0]).abs() > 1e-6 || (k[1] - u[1]).abs() > 1e-6)

@@ -192,3 +192,37 @@ fn bad_inputs_are_typed_errors() {
         Err(PhysicsError::NonPositive { .. })
     ));
 }
+
+#[test]
+fn curve_is_smooth_in_the_parameters() {
+    // An optimiser's finite differences need the model to be smooth in its parameters: no jumps
+    // from a changing step count. Across a sweep of ρ0 (and so of r1 moving across grid nodes),
+    // derivatives of V_halo(2 kpc) and r1 from steps 1e-6 and 1e-4 in ln ρ0 must agree.
+    let bulge = Hernquist::new(1e9, 0.8).expect("valid");
+    let s = setup(2.0, &bulge);
+    let value = |ln_rho0: f64| {
+        let halo = core_first(&s, ln_rho0.exp(), 45.0).expect("solves");
+        (halo.v_circ_kms(2.0), halo.r1_kpc())
+    };
+    let mut worst = 0.0f64;
+    for i in 0..200 {
+        let ln_rho0 = (2e8f64).ln() + 0.01 * f64::from(i);
+        let (small, large) = (1e-6, 1e-4);
+        let central = |step: f64| {
+            let (plus, minus) = (value(ln_rho0 + step), value(ln_rho0 - step));
+            (
+                (plus.0 - minus.0) / (2.0 * step),
+                (plus.1 - minus.1) / (2.0 * step),
+            )
+        };
+        let (d_small, r_small) = central(small);
+        let (d_large, r_large) = central(large);
+        worst = worst
+            .max((d_small / d_large - 1.0).abs())
+            .max((r_small / r_large - 1.0).abs());
+    }
+    assert!(
+        worst < 1e-3,
+        "finite-difference derivatives disagree by {worst:e}"
+    );
+}
