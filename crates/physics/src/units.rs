@@ -28,6 +28,10 @@ pub const GYR_PER_KPC_PER_KMS: f64 = 0.9777922217;
 /// Kilometres per second per kiloparsec in one km/s/Mpc (1 Mpc = 1000 kpc, exact).
 pub const KMS_PER_KPC_PER_KMS_PER_MPC: f64 = 1.0e-3;
 
+/// Kiloparsecs subtended by one arcsecond at a distance of one megaparsec:
+/// 1000 kpc × π / (180 × 3600) (exact from the definitions).
+pub const KPC_PER_ARCSEC_PER_MPC: f64 = 1000.0 * std::f64::consts::PI / 648_000.0;
+
 /// Halo age used when the user gives none, in Gyr (common practice for galaxies; published
 /// Bayesian fits of rotation-curve samples used 10 Gyr).
 pub const DEFAULT_HALO_AGE_GYR: f64 = 10.0;

@@ -503,7 +503,7 @@ fn fold_direction(setup: &SidmSetup, nfw: &Nfw, root: [f64; 2]) -> Option<[f64; 
     let mean = 0.5 * (a + c);
     let spread = (0.25 * (a - c) * (a - c) + b * b).sqrt();
     let (small, large) = (mean - spread, mean + spread);
-    if !(large > 0.0) || small.max(0.0).sqrt() >= FOLD_CONDITION * large.sqrt() {
+    if large.is_nan() || large <= 0.0 || small.max(0.0).sqrt() >= FOLD_CONDITION * large.sqrt() {
         return None;
     }
     let v = if b.abs() > 1e-300 {

@@ -1,0 +1,126 @@
+//! The galaxy table: a rotation curve with its baryonic contributions and metadata, in the
+//! internal units (kpc, km/s), with the warnings raised while reading it.
+
+use std::path::PathBuf;
+
+use caldera_physics::{BaryonTable, BaryonVelocities, PhysicsError};
+use serde::{Deserialize, Serialize};
+
+use crate::error::Location;
+
+/// Per-galaxy metadata. Every field may come from the table file or from a catalogue index.
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+pub struct GalaxyMeta {
+    pub name: String,
+    pub distance_mpc: Option<f64>,
+    pub distance_err_mpc: Option<f64>,
+    pub inclination_deg: Option<f64>,
+    pub inclination_err_deg: Option<f64>,
+    /// Halo age for the SIDM rate condition, Gyr.
+    pub age_gyr: Option<f64>,
+    pub notes: String,
+}
+
+/// Something accepted but worth the user's attention (sorted rows, assumed units, ...).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct TableWarning {
+    pub location: Option<String>,
+    pub message: String,
+}
+
+impl TableWarning {
+    pub(crate) fn at(location: Option<&Location>, message: impl Into<String>) -> Self {
+        Self {
+            location: location.map(ToString::to_string),
+            message: message.into(),
+        }
+    }
+}
+
+impl std::fmt::Display for TableWarning {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match &self.location {
+            Some(location) => write!(f, "{location}: {}", self.message),
+            None => f.write_str(&self.message),
+        }
+    }
+}
+
+/// A galaxy's rotation curve in kpc and km/s, sorted by radius.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct GalaxyTable {
+    pub meta: GalaxyMeta,
+    /// The file it was read from, if any.
+    pub source: Option<PathBuf>,
+    pub radius_kpc: Vec<f64>,
+    pub v_obs_kms: Vec<f64>,
+    pub v_err_kms: Vec<f64>,
+    pub v_gas_kms: Vec<f64>,
+    pub v_disk_kms: Vec<f64>,
+    /// None when the galaxy has no bulge column.
+    pub v_bulge_kms: Option<Vec<f64>>,
+    pub warnings: Vec<TableWarning>,
+}
+
+impl GalaxyTable {
+    /// Number of data points.
+    #[must_use]
+    pub fn len(&self) -> usize {
+        self.radius_kpc.len()
+    }
+
+    /// True when the table has no rows.
+    #[must_use]
+    pub fn is_empty(&self) -> bool {
+        self.radius_kpc.is_empty()
+    }
+
+    /// The baryonic velocities of row `i` (bulge zero when absent).
+    #[must_use]
+    pub fn baryon_velocities(&self, i: usize) -> BaryonVelocities {
+        BaryonVelocities {
+            gas_kms: self.v_gas_kms[i],
+            disk_kms: self.v_disk_kms[i],
+            bulge_kms: self.v_bulge_kms.as_ref().map_or(0.0, |b| b[i]),
+        }
+    }
+
+    /// The baryonic mass model for mass-to-light ratios Υ_disk and Υ_bulge. Rows at the same
+    /// radius are averaged, since the enclosed mass is a function of radius.
+    pub fn baryons(
+        &self,
+        upsilon_disk: f64,
+        upsilon_bulge: f64,
+    ) -> Result<BaryonTable, PhysicsError> {
+        let mut radii: Vec<f64> = Vec::with_capacity(self.len());
+        let mut rows: Vec<BaryonVelocities> = Vec::with_capacity(self.len());
+        let mut counts: Vec<f64> = Vec::with_capacity(self.len());
+        for i in 0..self.len() {
+            let row = self.baryon_velocities(i);
+            match radii.last() {
+                Some(&last) if last >= self.radius_kpc[i] => {
+                    let (Some(sum), Some(count)) = (rows.last_mut(), counts.last_mut()) else {
+                        continue;
+                    };
+                    // Running mean of the duplicated rows.
+                    *count += 1.0;
+                    sum.gas_kms += (row.gas_kms - sum.gas_kms) / *count;
+                    sum.disk_kms += (row.disk_kms - sum.disk_kms) / *count;
+                    sum.bulge_kms += (row.bulge_kms - sum.bulge_kms) / *count;
+                }
+                _ => {
+                    radii.push(self.radius_kpc[i]);
+                    rows.push(row);
+                    counts.push(1.0);
+                }
+            }
+        }
+        BaryonTable::new(&radii, &rows, upsilon_disk, upsilon_bulge)
+    }
+
+    /// Largest observed velocity, km/s.
+    #[must_use]
+    pub fn v_obs_max_kms(&self) -> f64 {
+        self.v_obs_kms.iter().copied().fold(f64::NAN, f64::max)
+    }
+}
