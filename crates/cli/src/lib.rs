@@ -1,0 +1,63 @@
+//! The `caldera` command-line tool: argument parsing and glue over the library crates.
+//!
+//! Exit codes: 0 success, 1 failure (the reason is printed once on standard error), 2 usage
+//! error (printed by the argument parser).
+
+mod curve;
+
+use std::process::ExitCode;
+
+use clap::{Parser, Subcommand};
+
+pub use curve::CurveArgs;
+
+/// Caldera: self-interacting dark matter constraints from galaxy rotation curves.
+#[derive(Debug, Parser)]
+#[command(name = "caldera", version, about, long_about = None)]
+pub struct Cli {
+    /// Print only errors.
+    #[arg(long, short, global = true, conflicts_with = "verbose")]
+    pub quiet: bool,
+    /// Print more detail (every table warning, solver choices).
+    #[arg(long, short, global = true)]
+    pub verbose: bool,
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+/// What to do.
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Evaluate a halo model's rotation curve at given radii.
+    #[command(after_help = curve::EXAMPLES)]
+    Curve(CurveArgs),
+}
+
+/// How much to print besides results.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Verbosity {
+    Quiet,
+    Normal,
+    Verbose,
+}
+
+impl Cli {
+    /// The verbosity the flags ask for.
+    #[must_use]
+    pub fn verbosity(&self) -> Verbosity {
+        if self.quiet {
+            Verbosity::Quiet
+        } else if self.verbose {
+            Verbosity::Verbose
+        } else {
+            Verbosity::Normal
+        }
+    }
+}
+
+/// Runs a parsed command line.
+pub fn run(cli: &Cli) -> anyhow::Result<ExitCode> {
+    match &cli.command {
+        Command::Curve(args) => curve::run(args, cli.verbosity()),
+    }
+}

@@ -1,0 +1,212 @@
+//! `caldera curve` end to end: the JSON it prints, its failures and exit codes.
+
+use std::process::Command;
+
+use serde_json::Value;
+
+fn caldera(args: &[&str]) -> (i32, String, String) {
+    let output = Command::new(env!("CARGO_BIN_EXE_caldera"))
+        .args(args)
+        .output()
+        .expect("the caldera binary runs");
+    (
+        output.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&output.stdout).into_owned(),
+        String::from_utf8_lossy(&output.stderr).into_owned(),
+    )
+}
+
+fn json(args: &[&str]) -> Value {
+    let (code, stdout, stderr) = caldera(args);
+    assert_eq!(code, 0, "stderr: {stderr}");
+    serde_json::from_str(&stdout).expect("valid JSON")
+}
+
+fn number(v: &Value, key: &str) -> f64 {
+    v[key]
+        .as_f64()
+        .unwrap_or_else(|| panic!("{key} missing in {v}"))
+}
+
+#[test]
+fn sidm_core_first_json_matches_the_reference_table() {
+    // Reference: physics reference core-first table (scipy): ρ0 = 1e8, σ0 = 40, σ/m = 3 →
+    // r1 = 6.1868 kpc, ρ_s = 7.4295e7 Msun/kpc³, r_s = 2.1559 kpc.
+    let v = json(&[
+        "curve",
+        "sidm",
+        "--rho0",
+        "1e8",
+        "--sigma0",
+        "40",
+        "--cross-section",
+        "3",
+        "--radii",
+        "0.5,1,2",
+        "--json",
+    ]);
+    assert!((number(&v, "r1_kpc") / 6.1868 - 1.0).abs() < 1e-4);
+    assert!((number(&v, "rho_s_msun_kpc3") / 7.4295e7 - 1.0).abs() < 1e-4);
+    assert!((number(&v, "r_s_kpc") / 2.1559 - 1.0).abs() < 1e-4);
+    for key in ["rho0_msun_kpc3", "sigma0_kms", "v200_kms", "c200"] {
+        assert!(number(&v, key) > 0.0, "{key}");
+    }
+    assert_eq!(v["radii_kpc"].as_array().map(Vec::len), Some(3));
+    assert_eq!(v["v_halo_kms"].as_array().map(Vec::len), Some(3));
+    assert!(v["branch"].is_null());
+}
+
+#[test]
+fn sidm_halo_first_json_matches_the_reference_table() {
+    // Reference: physics reference halo-first table (scipy): M200 = 1e11, c = 10, σ/m = 3, no
+    // baryons → ρ0 = 1.63902e7, σ0 = 49.6840, r1 = 10.01079; V200 = 10 H0 r200 for that halo.
+    let r200_kpc = (3.0 * 1e11 / (4.0 * std::f64::consts::PI * 200.0 * 135.99295)).cbrt();
+    let v200 = format!("{}", 10.0 * 0.07 * r200_kpc);
+    let v = json(&[
+        "curve",
+        "sidm",
+        "--v200",
+        &v200,
+        "--c200",
+        "10",
+        "--cross-section",
+        "3",
+        "--radii",
+        "0.5,1,2,5",
+        "--json",
+    ]);
+    assert!((number(&v, "rho0_msun_kpc3") / 1.63902e7 - 1.0).abs() < 1e-4);
+    assert!((number(&v, "sigma0_kms") / 49.6840 - 1.0).abs() < 1e-4);
+    assert!((number(&v, "r1_kpc") / 10.01079 - 1.0).abs() < 1e-4);
+    assert_eq!(v["branch"].as_u64(), Some(0));
+    // V_halo(0.5, 1, 2, 5 kpc) = 8.554, 16.883, 32.125, 61.834 km/s (physics reference).
+    let curve: Vec<f64> = v["v_halo_kms"]
+        .as_array()
+        .expect("array")
+        .iter()
+        .filter_map(Value::as_f64)
+        .collect();
+    for (got, want) in curve.iter().zip([8.554, 16.883, 32.125, 61.834]) {
+        assert!((got / want - 1.0).abs() < 1e-3, "{got} vs {want}");
+    }
+}
+
+#[test]
+fn nfw_burkert_and_pseudo_isothermal_curves() {
+    let nfw = json(&[
+        "curve", "nfw", "--v200", "144.3953", "--c200", "10", "--radii", "10", "--json",
+    ]);
+    // Reference: NFW worked example (scipy): V(10 kpc) = 140.946 km/s for M200 = 1e12, c = 10.
+    assert!((nfw["v_halo_kms"][0].as_f64().unwrap_or(0.0) / 140.946 - 1.0).abs() < 1e-5);
+    for args in [
+        [
+            "curve", "burkert", "--rho0", "3e7", "--r0", "2", "--radii", "1,2", "--json",
+        ],
+        [
+            "curve",
+            "pseudo-iso",
+            "--rho0",
+            "3e7",
+            "--rc",
+            "2",
+            "--radii",
+            "1,2",
+            "--json",
+        ],
+    ] {
+        let v = json(&args);
+        let curve = v["v_halo_kms"].as_array().expect("array");
+        assert_eq!(curve.len(), 2);
+        assert!(curve.iter().all(|x| x.as_f64().is_some_and(|x| x > 0.0)));
+    }
+}
+
+#[test]
+fn table_baryons_enter_the_total() {
+    let dir = std::env::temp_dir().join(format!("caldera-curve-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).expect("temp dir");
+    let path = dir.join("galaxy.csv");
+    std::fs::write(
+        &path,
+        "# name: Test dwarf\nr [kpc], v_obs, err, v_gas, v_disk\n0.5, 20, 2, 5, 10\n1.0, 31, 2, 8, 14\n2, 40, 3, 10, 16\n",
+    )
+    .expect("write table");
+    let path_text = path.to_string_lossy().into_owned();
+    let v = json(&[
+        "curve",
+        "sidm",
+        "--v200",
+        "60",
+        "--c200",
+        "12",
+        "--cross-section",
+        "3",
+        "--table",
+        &path_text,
+        "--json",
+    ]);
+    assert_eq!(v["galaxy"], "Test dwarf");
+    assert_eq!(v["radii_kpc"].as_array().map(Vec::len), Some(3));
+    let at = |key: &str, i: usize| v[key][i].as_f64().unwrap_or(f64::NAN);
+    // V_b² = V_gas² + Υ_disk V_disk² at r = 1 kpc: 64 + 0.5 × 196.
+    assert!((at("v_baryon_kms", 1).powi(2) - (64.0 + 0.5 * 196.0)).abs() < 1e-9);
+    for i in 0..3 {
+        let expected = (at("v_halo_kms", i).powi(2) + at("v_baryon_kms", i).powi(2)).sqrt();
+        assert!((at("v_total_kms", i) - expected).abs() < 1e-9);
+    }
+    std::fs::remove_dir_all(&dir).ok();
+}
+
+#[test]
+fn failures_exit_non_zero_with_one_line() {
+    let (code, stdout, stderr) = caldera(&[
+        "curve",
+        "sidm",
+        "--v200",
+        "60",
+        "--c200",
+        "12",
+        "--cross-section",
+        "300",
+        "--json",
+    ]);
+    assert_eq!(code, 1);
+    assert!(stdout.is_empty());
+    assert_eq!(stderr.lines().count(), 1, "{stderr}");
+    assert!(
+        stderr.starts_with("error: ") && stderr.contains("no isothermal core"),
+        "{stderr}"
+    );
+
+    let (code, _, stderr) = caldera(&[
+        "curve",
+        "sidm",
+        "--rho0",
+        "10",
+        "--sigma0",
+        "30",
+        "--cross-section",
+        "1",
+    ]);
+    assert_eq!(code, 1);
+    assert!(stderr.contains("no thermalised core"), "{stderr}");
+
+    let (code, _, stderr) = caldera(&[
+        "curve",
+        "sidm",
+        "--table",
+        "/nonexistent/g.csv",
+        "--v200",
+        "60",
+        "--c200",
+        "10",
+        "--cross-section",
+        "1",
+    ]);
+    assert_eq!(code, 1);
+    assert!(stderr.contains("/nonexistent/g.csv"), "{stderr}");
+
+    // Usage errors exit with 2.
+    let (code, _, _) = caldera(&["curve", "nfw", "--v200", "x", "--c200", "3"]);
+    assert_eq!(code, 2);
+}
