@@ -20,6 +20,7 @@
 //! ```
 
 pub mod columns;
+mod ecsv;
 mod error;
 mod table;
 mod text;
@@ -35,6 +36,8 @@ pub use text::ColumnMapping;
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 #[non_exhaustive]
 pub enum TableFormat {
+    /// astropy's ECSV: a YAML header with column units and metadata, then the rows.
+    Ecsv,
     /// Comma-separated values with a header row.
     Csv,
     /// Columns separated by runs of spaces or tabs, with a header row.
@@ -43,8 +46,11 @@ pub enum TableFormat {
 
 impl TableFormat {
     /// Every format, by the name users give it.
-    pub const NAMES: [(&'static str, Self); 2] =
-        [("csv", Self::Csv), ("whitespace", Self::Whitespace)];
+    pub const NAMES: [(&'static str, Self); 3] = [
+        ("ecsv", Self::Ecsv),
+        ("csv", Self::Csv),
+        ("whitespace", Self::Whitespace),
+    ];
 
     /// The format called `name` (case-insensitive).
     #[must_use]
@@ -64,9 +70,13 @@ impl TableFormat {
             .map(str::to_ascii_lowercase)
             .as_deref()
         {
+            Some("ecsv") => return Some(Self::Ecsv),
             Some("csv") => return Some(Self::Csv),
             Some("tsv") => return Some(Self::Whitespace),
             _ => {}
+        }
+        if text.trim_start().starts_with("# %ECSV") {
+            return Some(Self::Ecsv);
         }
         let header = text
             .lines()
@@ -112,6 +122,7 @@ pub fn read_table_from_str(
             known: TableFormat::NAMES.map(|(n, _)| n).join(", "),
         })?;
     let raw = match format {
+        TableFormat::Ecsv => ecsv::read_ecsv(text, path)?,
         TableFormat::Csv => text::read_delimited(text, path, Some(','))?,
         TableFormat::Whitespace => text::read_delimited(text, path, None)?,
     };

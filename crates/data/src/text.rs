@@ -15,17 +15,20 @@ use crate::table::{GalaxyMeta, GalaxyTable, TableWarning};
 /// Which header names the user has assigned to which roles, overriding the guesses.
 pub type ColumnMapping = BTreeMap<ColumnRole, String>;
 
-/// One column as read: its header, the unit it stated and its cells.
+/// One column as read: its header, the unit it stated and its cells as text (parsed only when
+/// the column is used, so unused text columns do no harm).
 pub(crate) struct RawColumn {
     pub header: String,
     pub unit: Option<Unit>,
     pub unit_text: Option<String>,
-    pub values: Vec<f64>,
+    pub cells: Vec<String>,
 }
 
 /// A table as read from any format, before roles and units are resolved.
 pub(crate) struct RawTable {
     pub columns: Vec<RawColumn>,
+    /// File line of the header row (1-based).
+    pub header_line: usize,
     /// File line of each data row (1-based).
     pub row_lines: Vec<usize>,
     pub meta: GalaxyMeta,
@@ -129,6 +132,7 @@ pub(crate) fn read_delimited(
     let mut meta = GalaxyMeta::default();
     let mut warnings = Vec::new();
     let mut headers: Option<Vec<String>> = None;
+    let mut header_line = 0;
     let mut columns: Vec<RawColumn> = Vec::new();
     let mut row_lines = Vec::new();
     for (index, raw_line) in text.lines().enumerate() {
@@ -162,11 +166,12 @@ pub(crate) fn read_delimited(
                             header: h.trim().to_string(),
                             unit,
                             unit_text,
-                            values: Vec::new(),
+                            cells: Vec::new(),
                         }
                     })
                     .collect();
                 headers = Some(cells);
+                header_line = line_number;
             }
             Some(names) => {
                 if cells.len() != names.len() {
@@ -183,14 +188,8 @@ pub(crate) fn read_delimited(
                         ),
                     });
                 }
-                for (column_index, (cell, column)) in cells.iter().zip(&mut columns).enumerate() {
-                    column.values.push(parse_cell(
-                        cell,
-                        path,
-                        line_number,
-                        column_index + 1,
-                        &column.header,
-                    )?);
+                for (cell, column) in cells.into_iter().zip(&mut columns) {
+                    column.cells.push(cell);
                 }
                 row_lines.push(line_number);
             }
@@ -204,13 +203,14 @@ pub(crate) fn read_delimited(
     }
     Ok(RawTable {
         columns,
+        header_line,
         row_lines,
         meta,
         warnings,
     })
 }
 
-fn split_cells(
+pub(crate) fn split_cells(
     line: &str,
     separator: Option<char>,
     path: &Path,
@@ -218,20 +218,31 @@ fn split_cells(
 ) -> Result<Vec<String>, DataError> {
     match separator {
         None => Ok(line.split_whitespace().map(str::to_string).collect()),
-        Some(sep) => {
-            let mut reader = csv::ReaderBuilder::new()
-                .has_headers(false)
-                .delimiter(u8::try_from(sep).unwrap_or(b','))
-                .from_reader(line.as_bytes());
-            let mut record = csv::StringRecord::new();
-            match reader.read_record(&mut record) {
-                Ok(_) => Ok(record.iter().map(|c| c.trim().to_string()).collect()),
-                Err(e) => Err(DataError::Malformed {
-                    location: location(path, line_number, None),
-                    message: format!("cannot split the line into fields: {e}"),
-                }),
-            }
-        }
+        Some(' ') => split_quoted(line, b' ', path, line_number).map(|cells| {
+            // Runs of spaces make empty fields; a space-delimited file has none of its own.
+            cells.into_iter().filter(|c| !c.is_empty()).collect()
+        }),
+        Some(sep) => split_quoted(line, u8::try_from(sep).unwrap_or(b','), path, line_number),
+    }
+}
+
+fn split_quoted(
+    line: &str,
+    delimiter: u8,
+    path: &Path,
+    line_number: usize,
+) -> Result<Vec<String>, DataError> {
+    let mut reader = csv::ReaderBuilder::new()
+        .has_headers(false)
+        .delimiter(delimiter)
+        .from_reader(line.as_bytes());
+    let mut record = csv::StringRecord::new();
+    match reader.read_record(&mut record) {
+        Ok(_) => Ok(record.iter().map(|c| c.trim().to_string()).collect()),
+        Err(e) => Err(DataError::Malformed {
+            location: location(path, line_number, None),
+            message: format!("cannot split the line into fields: {e}"),
+        }),
     }
 }
 
@@ -243,6 +254,7 @@ pub(crate) fn build_table(
 ) -> Result<GalaxyTable, DataError> {
     let RawTable {
         columns,
+        header_line,
         row_lines,
         mut meta,
         mut warnings,
@@ -253,7 +265,6 @@ pub(crate) fn build_table(
             |s| s.to_string_lossy().into_owned(),
         );
     }
-    let header_line = row_lines.first().map_or(1, |l| l.saturating_sub(1).max(1));
     // Assign roles: explicit mapping first, then guesses from the names.
     let mut assigned: BTreeMap<ColumnRole, usize> = BTreeMap::new();
     for (role, wanted) in mapping {
@@ -366,7 +377,11 @@ pub(crate) fn build_table(
             (_, Some(Unit::Velocity(VelocityUnit::KmPerS))) => 1.0,
             (_, Some(Unit::Velocity(VelocityUnit::MPerS))) => 1e-3,
         };
-        Ok(Some(column.values.iter().map(|v| v * factor).collect()))
+        let mut values = Vec::with_capacity(column.cells.len());
+        for (cell, &line) in column.cells.iter().zip(&row_lines) {
+            values.push(factor * parse_cell(cell, path, line, index + 1, &column.header)?);
+        }
+        Ok(Some(values))
     };
     let required =
         |role: ColumnRole, warnings: &mut Vec<TableWarning>| -> Result<Vec<f64>, DataError> {

@@ -181,7 +181,7 @@ fn every_bad_input_names_its_place() {
 #[test]
 fn unknown_format_lists_the_known_ones() {
     let message = error_text("justoneword\n", "u.txt");
-    assert!(message.contains("csv, whitespace"), "{message}");
+    assert!(message.contains("ecsv, csv, whitespace"), "{message}");
 }
 
 #[test]
