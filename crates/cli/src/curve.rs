@@ -5,7 +5,7 @@ use std::path::PathBuf;
 use std::process::ExitCode;
 
 use anyhow::{Context, bail};
-use caldera_data::{GalaxyTable, ReadOptions, TableFormat, read_table};
+use caldera_data::{GalaxyTable, read_table};
 use caldera_physics::{
     BaryonTable, Branch, Burkert, Cosmology, CrossSection, EnclosedMass, HaloProfile, Nfw,
     NoBaryons, PseudoIsothermal, SidmSetup, sidm, units::DEFAULT_HALO_AGE_GYR,
@@ -14,6 +14,7 @@ use clap::{Args, Subcommand};
 use serde_json::{Map, Value, json};
 
 use crate::Verbosity;
+use crate::options::TableOptions;
 
 pub(crate) const EXAMPLES: &str = "\
 Examples:
@@ -58,9 +59,8 @@ pub struct CommonArgs {
     /// A galaxy table whose baryons enter the model (and whose radii are used by default).
     #[arg(long, value_name = "FILE")]
     pub table: Option<PathBuf>,
-    /// Table format: csv or whitespace (default: detected).
-    #[arg(long, value_name = "NAME")]
-    pub format: Option<String>,
+    #[command(flatten)]
+    pub table_options: TableOptions,
     /// Stellar-disk mass-to-light ratio applied to the table's disk column.
     #[arg(long, default_value_t = 0.5)]
     pub upsilon_disk: f64,
@@ -149,23 +149,10 @@ struct Inputs {
 
 fn load_inputs(common: &CommonArgs, verbosity: Verbosity) -> anyhow::Result<Inputs> {
     let cosmology = Cosmology::with_hubble(common.h0).context("invalid --h0")?;
-    let format = match &common.format {
-        None => None,
-        Some(name) => Some(TableFormat::from_name(name).with_context(|| {
-            format!(
-                "unknown table format '{name}'; known formats: {}",
-                TableFormat::NAMES.map(|(n, _)| n).join(", ")
-            )
-        })?),
-    };
     let table = match &common.table {
         None => None,
         Some(path) => {
-            let options = ReadOptions {
-                format,
-                ..ReadOptions::default()
-            };
-            let table = read_table(path, &options)?;
+            let table = read_table(path, &common.table_options.read_options()?)?;
             if verbosity != Verbosity::Quiet {
                 for warning in &table.warnings {
                     eprintln!("warning: {warning}");

@@ -3,13 +3,18 @@
 //! Exit codes: 0 success, 1 failure (the reason is printed once on standard error), 2 usage
 //! error (printed by the argument parser).
 
+mod check;
 mod curve;
+mod mock;
+mod options;
 
 use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
 
+pub use check::CheckArgs;
 pub use curve::CurveArgs;
+pub use mock::MockArgs;
 
 /// Caldera: self-interacting dark matter constraints from galaxy rotation curves.
 #[derive(Debug, Parser)]
@@ -31,6 +36,12 @@ pub enum Command {
     /// Evaluate a halo model's rotation curve at given radii.
     #[command(after_help = curve::EXAMPLES)]
     Curve(CurveArgs),
+    /// Validate a galaxy table or a catalogue folder and summarise it.
+    #[command(after_help = check::EXAMPLES)]
+    Check(CheckArgs),
+    /// Make an invented galaxy: its table and a truth file with every true parameter.
+    #[command(after_help = mock::EXAMPLES)]
+    Mock(Box<MockArgs>),
 }
 
 /// How much to print besides results.
@@ -59,5 +70,7 @@ impl Cli {
 pub fn run(cli: &Cli) -> anyhow::Result<ExitCode> {
     match &cli.command {
         Command::Curve(args) => curve::run(args, cli.verbosity()),
+        Command::Check(args) => check::run(args, cli.verbosity()),
+        Command::Mock(args) => mock::run(args, cli.verbosity()),
     }
 }

@@ -19,18 +19,23 @@
 //! # Ok::<(), caldera_data::DataError>(())
 //! ```
 
+pub mod catalogue;
 pub mod columns;
 mod ecsv;
 mod error;
+pub mod mock;
 mod table;
 mod text;
+mod write;
 
 use std::path::Path;
 
+pub use catalogue::{Catalogue, CatalogueEntry, load_catalogue};
 pub use columns::ColumnRole;
 pub use error::{DataError, Location};
 pub use table::{GalaxyMeta, GalaxyTable, TableWarning};
 pub use text::ColumnMapping;
+pub use write::{MetaValue, OutputColumn, OutputTable, write_atomic};
 
 /// The table formats Caldera reads.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
