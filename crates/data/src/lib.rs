@@ -24,6 +24,7 @@ pub mod columns;
 mod ecsv;
 mod error;
 pub mod mock;
+pub mod session;
 mod table;
 mod text;
 mod write;

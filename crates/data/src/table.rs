@@ -118,6 +118,25 @@ impl GalaxyTable {
         BaryonTable::new(&radii, &rows, upsilon_disk, upsilon_bulge)
     }
 
+    /// Refuses a fit with at least as many free parameters as data points (no degrees of
+    /// freedom left), naming the file.
+    pub fn check_enough_points(&self, free_parameters: usize) -> Result<(), crate::DataError> {
+        if self.len() > free_parameters {
+            return Ok(());
+        }
+        Err(crate::DataError::Unusable {
+            path: self
+                .source
+                .clone()
+                .unwrap_or_else(|| PathBuf::from(&self.meta.name)),
+            message: format!(
+                "{} data points cannot constrain {free_parameters} free parameters; at least {} points are needed",
+                self.len(),
+                free_parameters + 1
+            ),
+        })
+    }
+
     /// Largest observed velocity, km/s.
     #[must_use]
     pub fn v_obs_max_kms(&self) -> f64 {

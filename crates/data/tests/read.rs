@@ -196,3 +196,52 @@ fn explicit_mapping_overrides_the_guess() {
     let table = read_table_from_str(text, Path::new("w.csv"), &options).expect("reads");
     assert_eq!(table.v_obs_kms, vec![33.0]);
 }
+
+#[test]
+fn too_few_points_for_the_free_parameters_is_refused() {
+    let table = read(GOOD_CSV, "a.csv").expect("reads");
+    assert!(table.check_enough_points(2).is_ok());
+    let message = table
+        .check_enough_points(3)
+        .expect_err("refused")
+        .to_string();
+    assert!(
+        message.starts_with("a.csv") && message.contains("3 data points cannot constrain 3"),
+        "{message}"
+    );
+}
+
+#[test]
+fn ecsv_errors_name_their_place() {
+    let cases = [
+        (
+            "# %ECSV 1.0\n# ---\n# datatype: [\nr v\n",
+            "x.ecsv:",
+            "YAML header does not parse",
+        ),
+        (
+            "# ECSV 1.0\n# ---\nr v\n",
+            "y.ecsv:1",
+            "starts with '# %ECSV",
+        ),
+        (
+            "# %ECSV 1.0\n# ---\n# datatype:\n# - {name: r, unit: kpc, datatype: float64}\nradius\n1\n",
+            "z.ecsv:5",
+            "differ from the header",
+        ),
+        (
+            "# %ECSV 1.0\n# ---\n# datatype:\n# - {name: r, unit: kpc, datatype: float64}\n# - {name: v, unit: km / s, datatype: float64}\n# - {name: err, unit: km / s, datatype: float64}\n# - {name: gas, unit: km / s, datatype: float64}\n# - {name: disk, unit: km / s, datatype: float64}\nr v err gas disk\n1 2 x 4 5\n",
+            "w.ecsv:10:3",
+            "expected a number, found 'x'",
+        ),
+    ];
+    for (text, place, what) in cases {
+        let name = place.split(':').next().unwrap_or_default();
+        let message = error_text(text, name);
+        assert!(
+            message.starts_with(place),
+            "'{message}' should start with {place}"
+        );
+        assert!(message.contains(what), "'{message}' should say '{what}'");
+    }
+}

@@ -1,0 +1,303 @@
+//! Session files: everything a user set up, saved as RON (Rusty Object Notation) with a `version`
+//! field, written atomically, and never over an input table.
+//!
+//! Versioning: [`SESSION_VERSION`] is the format written now. Fields added later within a version
+//! carry `#[serde(default)]`, so older files of the same version still load. A future format
+//! change bumps the version and adds a `migrate_vN_to_vN+1` step in [`load_session`]'s chain; a
+//! file from a newer Caldera is refused with a message saying so.
+
+use std::collections::BTreeMap;
+use std::path::{Path, PathBuf};
+
+use caldera_physics::Cosmology;
+use serde::{Deserialize, Serialize};
+
+use crate::TableFormat;
+use crate::catalogue::TABLE_EXTENSIONS;
+use crate::error::DataError;
+use crate::text::ColumnMapping;
+use crate::write::write_atomic;
+
+/// The session format this build writes.
+pub const SESSION_VERSION: u32 = 1;
+
+/// Conventional extension of session files.
+pub const SESSION_EXTENSION: &str = "ron";
+
+/// Halo models a user can choose.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq, Serialize, Deserialize)]
+pub enum HaloModel {
+    #[default]
+    Sidm,
+    Nfw,
+    Burkert,
+    PseudoIsothermal,
+}
+
+/// What the user set for one galaxy (the controls' values).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct GalaxySettings {
+    pub model: HaloModel,
+    pub sigma_m_cm2_g: f64,
+    pub v200_kms: f64,
+    pub c200: f64,
+    pub upsilon_disk: f64,
+    pub upsilon_bulge: f64,
+    pub age_gyr: f64,
+    /// Overrides of the table's distance and inclination, when the user changed them.
+    pub distance_mpc: Option<f64>,
+    pub inclination_deg: Option<f64>,
+}
+
+impl Default for GalaxySettings {
+    fn default() -> Self {
+        Self {
+            model: HaloModel::Sidm,
+            sigma_m_cm2_g: 1.0,
+            v200_kms: 80.0,
+            c200: 10.0,
+            upsilon_disk: 0.5,
+            upsilon_bulge: 0.7,
+            age_gyr: caldera_physics::units::DEFAULT_HALO_AGE_GYR,
+            distance_mpc: None,
+            inclination_deg: None,
+        }
+    }
+}
+
+/// A saved session.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Session {
+    pub version: u32,
+    /// The table or catalogue folder the session works on.
+    pub catalogue: Option<PathBuf>,
+    #[serde(default)]
+    pub format: Option<TableFormat>,
+    #[serde(default)]
+    pub column_mapping: ColumnMapping,
+    #[serde(default)]
+    pub cosmology: Cosmology,
+    /// Seed for every random draw the session makes (fits, mocks).
+    #[serde(default)]
+    pub seed: u64,
+    /// Per-galaxy settings, by galaxy name (sorted, so files diff cleanly).
+    #[serde(default)]
+    pub galaxies: BTreeMap<String, GalaxySettings>,
+    /// The galaxy shown last.
+    #[serde(default)]
+    pub selected: Option<String>,
+    #[serde(default)]
+    pub notes: String,
+}
+
+impl Default for Session {
+    fn default() -> Self {
+        Self {
+            version: SESSION_VERSION,
+            catalogue: None,
+            format: None,
+            column_mapping: ColumnMapping::new(),
+            cosmology: Cosmology::default(),
+            seed: 0,
+            galaxies: BTreeMap::new(),
+            selected: None,
+            notes: String::new(),
+        }
+    }
+}
+
+fn malformed(path: &Path, message: String) -> DataError {
+    DataError::Unusable {
+        path: path.to_path_buf(),
+        message,
+    }
+}
+
+/// Reads a session file, checking its version.
+pub fn load_session(path: &Path) -> Result<Session, DataError> {
+    let text = std::fs::read_to_string(path).map_err(|source| DataError::Io {
+        path: path.to_path_buf(),
+        source,
+    })?;
+    parse_session(&text, path)
+}
+
+/// Parses session text; `path` names it in messages.
+pub fn parse_session(text: &str, path: &Path) -> Result<Session, DataError> {
+    // Read the version alone first; the rest of the file is interpreted by that version's rules.
+    #[derive(Deserialize)]
+    #[serde(rename = "Session")]
+    struct VersionProbe {
+        #[serde(default)]
+        version: u32,
+    }
+    let probe: VersionProbe = ron::from_str(text)
+        .map_err(|e| malformed(path, format!("not a session file (RON): {e}")))?;
+    if probe.version == 0 {
+        return Err(malformed(
+            path,
+            "not a session file: no 'version' field".into(),
+        ));
+    }
+    let version = probe.version;
+    match version {
+        SESSION_VERSION => ron::from_str(text).map_err(|e| {
+            malformed(
+                path,
+                format!("session file (version {version}) is damaged: {e}"),
+            )
+        }),
+        v if v > SESSION_VERSION => Err(malformed(
+            path,
+            format!(
+                "written by a newer Caldera (session version {v}; this build reads up to {SESSION_VERSION})"
+            ),
+        )),
+        v => Err(malformed(
+            path,
+            format!("session version {v} is not one Caldera ever wrote"),
+        )),
+    }
+}
+
+/// Saves a session atomically. Refuses paths that look like tables or that hold a table of the
+/// session's catalogue, and refuses to replace a file that is not a session.
+pub fn save_session(path: &Path, session: &Session) -> Result<(), DataError> {
+    let extension = path
+        .extension()
+        .and_then(|e| e.to_str())
+        .map(str::to_ascii_lowercase)
+        .unwrap_or_default();
+    if TABLE_EXTENSIONS.contains(&extension.as_str()) {
+        return Err(malformed(
+            path,
+            format!(
+                "will not save a session over a table (.{extension}); use a .{SESSION_EXTENSION} file"
+            ),
+        ));
+    }
+    if let Some(catalogue) = &session.catalogue
+        && same_file(path, catalogue)
+    {
+        return Err(malformed(
+            path,
+            "will not save a session over the catalogue it uses".into(),
+        ));
+    }
+    if path.exists() {
+        load_session(path).map_err(|_| {
+            malformed(
+                path,
+                "exists and is not a Caldera session; choose another name".into(),
+            )
+        })?;
+    }
+    let pretty = ron::ser::PrettyConfig::new().struct_names(true);
+    let text = ron::ser::to_string_pretty(session, pretty)
+        .map_err(|e| malformed(path, format!("cannot encode the session: {e}")))?;
+    write_atomic(path, format!("{text}\n").as_bytes())
+}
+
+fn same_file(a: &Path, b: &Path) -> bool {
+    match (a.canonicalize(), b.canonicalize()) {
+        (Ok(x), Ok(y)) => x == y,
+        _ => a == b,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn sample() -> Session {
+        let mut galaxies = BTreeMap::new();
+        galaxies.insert(
+            "Kiln D03".to_string(),
+            GalaxySettings {
+                model: HaloModel::Burkert,
+                sigma_m_cm2_g: 2.5,
+                distance_mpc: Some(5.2),
+                ..GalaxySettings::default()
+            },
+        );
+        let mut mapping = ColumnMapping::new();
+        mapping.insert(crate::ColumnRole::VelocityObserved, "vflat".into());
+        Session {
+            catalogue: Some(PathBuf::from("demo_galaxies")),
+            format: Some(TableFormat::Ecsv),
+            column_mapping: mapping,
+            seed: 42,
+            galaxies,
+            selected: Some("Kiln D03".into()),
+            notes: "round trip".into(),
+            ..Session::default()
+        }
+    }
+
+    fn temp(name: &str) -> PathBuf {
+        let dir =
+            std::env::temp_dir().join(format!("caldera-session-{}-{name}", std::process::id()));
+        let _ = std::fs::remove_dir_all(&dir);
+        std::fs::create_dir_all(&dir).expect("temp dir");
+        dir
+    }
+
+    #[test]
+    fn round_trips_through_a_file() {
+        let dir = temp("round");
+        let path = dir.join("work.ron");
+        let session = sample();
+        save_session(&path, &session).expect("saves");
+        assert_eq!(load_session(&path).expect("loads"), session);
+        // Saving again over a session is allowed.
+        save_session(&path, &Session::default()).expect("saves again");
+        assert_eq!(load_session(&path).expect("loads"), Session::default());
+        std::fs::remove_dir_all(&dir).ok();
+    }
+
+    #[test]
+    fn never_writes_over_tables_or_foreign_files() {
+        let dir = temp("guard");
+        let table = dir.join("galaxy.ecsv");
+        std::fs::write(&table, "# %ECSV 1.0\n").expect("write");
+        assert!(save_session(&table, &sample()).is_err());
+        assert_eq!(
+            std::fs::read_to_string(&table).expect("reads"),
+            "# %ECSV 1.0\n"
+        );
+        let foreign = dir.join("notes.ron");
+        std::fs::write(&foreign, "my own notes").expect("write");
+        assert!(save_session(&foreign, &sample()).is_err());
+        assert_eq!(
+            std::fs::read_to_string(&foreign).expect("reads"),
+            "my own notes"
+        );
+        let catalogue_session = Session {
+            catalogue: Some(dir.join("cat.ron")),
+            ..sample()
+        };
+        std::fs::write(dir.join("cat.ron"), "").expect("write");
+        assert!(save_session(&dir.join("cat.ron"), &catalogue_session).is_err());
+        std::fs::remove_dir_all(&dir).ok();
+    }
+
+    #[test]
+    fn versions_are_checked_and_old_fields_default() {
+        let path = Path::new("s.ron");
+        let newer = parse_session("(version: 7, catalogue: None)", path).expect_err("refused");
+        assert!(newer.to_string().contains("newer Caldera"), "{newer}");
+        let unversioned = parse_session("(catalogue: None)", path).expect_err("refused");
+        assert!(
+            unversioned.to_string().contains("no 'version'"),
+            "{unversioned}"
+        );
+        // A minimal version-1 file (fields added later are absent) loads with defaults.
+        let minimal =
+            parse_session("Session(version: 1, catalogue: Some(\"x\"))", path).expect("loads");
+        assert_eq!(minimal.catalogue, Some(PathBuf::from("x")));
+        assert!(minimal.galaxies.is_empty());
+        let damaged =
+            parse_session("Session(version: 1, catalogue: 3)", path).expect_err("refused");
+        assert!(damaged.to_string().contains("damaged"), "{damaged}");
+    }
+}
