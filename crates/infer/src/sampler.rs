@@ -1,0 +1,431 @@
+//! An affine-invariant ensemble sampler with the stretch move (Goodman & Weare 2010), in the
+//! structure of the best-known Python implementation: a [`EnsembleState`] (walker positions,
+//! log-densities, derived quantities and one RNG stream per walker) passed from step to step, a
+//! [`Move`] that proposes, and a [`ChainStore`] that keeps the chain. [`run`] drives it until the
+//! chain is longer than a multiple of the autocorrelation time, reporting to an [`Observer`]
+//! that can stop it.
+//!
+//! Walkers are updated in two halves; within a half every walker moves against the other half's
+//! fixed positions, so a half updates in parallel (rayon) and the result does not depend on the
+//! number of threads.
+
+use rand::{RngExt, SeedableRng};
+use rand_xoshiro::Xoshiro256PlusPlus;
+use rayon::prelude::*;
+
+use crate::InferError;
+use crate::diagnostics::integrated_autocorr_times;
+
+/// A log-probability density on R^dim (up to a constant), with derived quantities ("blobs")
+/// computed on the way.
+pub trait LogDensity: Sync {
+    /// Number of parameters.
+    fn dim(&self) -> usize;
+    /// Number of derived quantities written by [`LogDensity::log_density`].
+    fn n_derived(&self) -> usize {
+        0
+    }
+    /// ln p(θ), or −∞ outside the support; fills `derived` (length [`LogDensity::n_derived`]).
+    fn log_density(&self, theta: &[f64], derived: &mut [f64]) -> f64;
+}
+
+/// A proposal for one walker given a partner from the complementary half.
+pub trait Move: Sync {
+    /// Returns the proposed position and the log of the proposal's acceptance factor
+    /// (excluding the density ratio).
+    fn propose(
+        &self,
+        walker: &[f64],
+        partner: &[f64],
+        rng: &mut Xoshiro256PlusPlus,
+    ) -> (Vec<f64>, f64);
+}
+
+/// The stretch move: y = x_j + z (x_k − x_j), z ~ g(z) ∝ 1/√z on [1/a, a]; acceptance factor
+/// z^(d−1) (Goodman & Weare 2010, eqs. 10–11). a = 2 is the usual choice.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct StretchMove {
+    pub a: f64,
+}
+
+impl Default for StretchMove {
+    fn default() -> Self {
+        Self { a: 2.0 }
+    }
+}
+
+impl Move for StretchMove {
+    fn propose(
+        &self,
+        walker: &[f64],
+        partner: &[f64],
+        rng: &mut Xoshiro256PlusPlus,
+    ) -> (Vec<f64>, f64) {
+        let u: f64 = rng.random();
+        let z = ((self.a - 1.0) * u + 1.0).powi(2) / self.a;
+        let proposal: Vec<f64> = walker
+            .iter()
+            .zip(partner)
+            .map(|(x, p)| p + z * (x - p))
+            .collect();
+        (proposal, (walker.len() as f64 - 1.0) * z.ln())
+    }
+}
+
+/// One walker: position, log-density, derived quantities, RNG stream, accepted moves.
+#[derive(Debug, Clone)]
+pub struct Walker {
+    pub position: Vec<f64>,
+    pub log_density: f64,
+    pub derived: Vec<f64>,
+    rng: Xoshiro256PlusPlus,
+    pub accepted: u64,
+}
+
+/// The ensemble at one step.
+#[derive(Debug, Clone)]
+pub struct EnsembleState {
+    pub walkers: Vec<Walker>,
+    pub step: usize,
+    pub evaluations: u64,
+}
+
+impl EnsembleState {
+    /// Starts walkers at `initial` positions (at least 2·dim + 2 of them, even count), each with
+    /// its own RNG stream derived from `seed`. Every start must have a finite density.
+    pub fn new<D: LogDensity>(
+        density: &D,
+        initial: Vec<Vec<f64>>,
+        seed: u64,
+    ) -> Result<Self, InferError> {
+        let dim = density.dim();
+        if initial.len() < 2 * dim + 2 || initial.len() % 2 != 0 {
+            return Err(InferError::Config(format!(
+                "need an even number of at least {} walkers for {dim} parameters, got {}",
+                2 * dim + 2,
+                initial.len()
+            )));
+        }
+        let mut stream = Xoshiro256PlusPlus::seed_from_u64(seed);
+        let mut walkers = Vec::with_capacity(initial.len());
+        for position in initial {
+            if position.len() != dim {
+                return Err(InferError::Config(format!(
+                    "a walker has {} coordinates, not {dim}",
+                    position.len()
+                )));
+            }
+            let mut derived = vec![f64::NAN; density.n_derived()];
+            let log_density = density.log_density(&position, &mut derived);
+            if !log_density.is_finite() {
+                return Err(InferError::NoValidStart(format!(
+                    "walker start {position:?} has ln p = {log_density}"
+                )));
+            }
+            // Each walker gets a stream 2^128 draws apart from the previous one.
+            let rng = stream.clone();
+            stream.jump();
+            walkers.push(Walker {
+                position,
+                log_density,
+                derived,
+                rng,
+                accepted: 0,
+            });
+        }
+        let evaluations = walkers.len() as u64;
+        Ok(Self {
+            walkers,
+            step: 0,
+            evaluations,
+        })
+    }
+
+    /// Number of walkers.
+    #[must_use]
+    pub fn n_walkers(&self) -> usize {
+        self.walkers.len()
+    }
+
+    /// Fraction of proposals accepted so far, over all walkers.
+    #[must_use]
+    pub fn acceptance_fraction(&self) -> f64 {
+        if self.step == 0 {
+            return 0.0;
+        }
+        let accepted: u64 = self.walkers.iter().map(|w| w.accepted).sum();
+        accepted as f64 / (self.step * self.walkers.len()) as f64
+    }
+
+    /// Advances every walker by one move (two half-updates).
+    pub fn advance<D: LogDensity, M: Move>(&mut self, density: &D, mv: &M) {
+        let half = self.walkers.len() / 2;
+        for first in [true, false] {
+            let (a, b) = self.walkers.split_at_mut(half);
+            let (moving, fixed) = if first { (a, &*b) } else { (b, &*a) };
+            moving.par_iter_mut().for_each(|walker| {
+                let partner_index = walker.rng.random_range(0..fixed.len());
+                let partner = &fixed[partner_index].position;
+                let (proposal, log_factor) = mv.propose(&walker.position, partner, &mut walker.rng);
+                let mut derived = vec![f64::NAN; walker.derived.len()];
+                let log_density = density.log_density(&proposal, &mut derived);
+                let log_accept = log_factor + log_density - walker.log_density;
+                let u: f64 = walker.rng.random();
+                if log_density.is_finite() && u.ln() < log_accept {
+                    walker.position = proposal;
+                    walker.log_density = log_density;
+                    walker.derived = derived;
+                    walker.accepted += 1;
+                }
+            });
+        }
+        self.step += 1;
+        self.evaluations += self.walkers.len() as u64;
+    }
+}
+
+/// The stored chain: for every step and walker, the position, log-density and derived values.
+#[derive(Debug, Clone, Default)]
+pub struct ChainStore {
+    pub n_walkers: usize,
+    pub n_dim: usize,
+    pub n_derived: usize,
+    positions: Vec<f64>,
+    log_densities: Vec<f64>,
+    derived: Vec<f64>,
+}
+
+impl ChainStore {
+    /// An empty chain for this ensemble shape.
+    #[must_use]
+    pub fn new(n_walkers: usize, n_dim: usize, n_derived: usize) -> Self {
+        Self {
+            n_walkers,
+            n_dim,
+            n_derived,
+            ..Self::default()
+        }
+    }
+
+    /// Appends the ensemble's current state.
+    pub fn record(&mut self, state: &EnsembleState) {
+        for w in &state.walkers {
+            self.positions.extend_from_slice(&w.position);
+            self.log_densities.push(w.log_density);
+            self.derived.extend_from_slice(&w.derived);
+        }
+    }
+
+    /// Number of recorded steps.
+    #[must_use]
+    pub fn steps(&self) -> usize {
+        if self.n_walkers == 0 {
+            0
+        } else {
+            self.log_densities.len() / self.n_walkers
+        }
+    }
+
+    /// Parameter `param` of walker `walker` at `step`.
+    #[must_use]
+    pub fn position(&self, step: usize, walker: usize, param: usize) -> f64 {
+        self.positions[(step * self.n_walkers + walker) * self.n_dim + param]
+    }
+
+    /// Derived quantity `index` of walker `walker` at `step`.
+    #[must_use]
+    pub fn derived(&self, step: usize, walker: usize, index: usize) -> f64 {
+        self.derived[(step * self.n_walkers + walker) * self.n_derived + index]
+    }
+
+    /// Log-density of walker `walker` at `step`.
+    #[must_use]
+    pub fn log_density(&self, step: usize, walker: usize) -> f64 {
+        self.log_densities[step * self.n_walkers + walker]
+    }
+
+    /// The series of one parameter for one walker from step `start` on.
+    #[must_use]
+    pub fn walker_series(&self, walker: usize, param: usize, start: usize) -> Vec<f64> {
+        (start..self.steps())
+            .map(|s| self.position(s, walker, param))
+            .collect()
+    }
+
+    /// Every (step, walker) pair kept after discarding `burn` steps and keeping one step in
+    /// `thin`.
+    pub fn kept(&self, burn: usize, thin: usize) -> impl Iterator<Item = (usize, usize)> + '_ {
+        let thin = thin.max(1);
+        (burn.min(self.steps())..self.steps())
+            .step_by(thin)
+            .flat_map(move |s| (0..self.n_walkers).map(move |w| (s, w)))
+    }
+}
+
+/// What the observer sees after each step.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Progress {
+    pub step: usize,
+    pub max_steps: usize,
+    pub acceptance: f64,
+    /// Largest integrated autocorrelation time at the last check.
+    pub tau_max: Option<f64>,
+    /// Steps the chain needs to be longer than `tau_factor` τ, at the last check.
+    pub target_steps: Option<usize>,
+}
+
+/// Whether to go on.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Control {
+    Continue,
+    Stop,
+}
+
+/// Receives progress and may stop the run (a GUI's cancel button, Ctrl-C).
+pub trait Observer {
+    fn on_progress(&mut self, progress: &Progress) -> Control;
+}
+
+/// An observer that never stops the run.
+pub struct Silent;
+
+impl Observer for Silent {
+    fn on_progress(&mut self, _progress: &Progress) -> Control {
+        Control::Continue
+    }
+}
+
+impl<F: FnMut(&Progress) -> Control> Observer for F {
+    fn on_progress(&mut self, progress: &Progress) -> Control {
+        self(progress)
+    }
+}
+
+/// How long to run.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize, serde::Deserialize)]
+pub struct RunConfig {
+    /// Stop once the chain is longer than this many autocorrelation times (50 is common
+    /// practice) and τ has settled.
+    pub tau_factor: f64,
+    /// Never run fewer steps than this.
+    pub min_steps: usize,
+    /// Never run more steps than this (the user's cap); a chain stopped here is unconverged.
+    pub max_steps: usize,
+    /// Estimate τ every this many steps.
+    pub check_every: usize,
+    /// Relative change of τ between checks below which it counts as settled.
+    pub tau_tolerance: f64,
+}
+
+impl Default for RunConfig {
+    fn default() -> Self {
+        Self {
+            tau_factor: 50.0,
+            min_steps: 500,
+            max_steps: 20_000,
+            check_every: 250,
+            tau_tolerance: 0.05,
+        }
+    }
+}
+
+/// The result of a run.
+#[derive(Debug, Clone)]
+pub struct RunOutcome {
+    pub chain: ChainStore,
+    pub state: EnsembleState,
+    /// Integrated autocorrelation time per parameter, steps (at the end).
+    pub tau: Vec<f64>,
+    pub converged: bool,
+    pub cancelled: bool,
+}
+
+impl RunOutcome {
+    /// Largest τ, steps.
+    #[must_use]
+    pub fn tau_max(&self) -> f64 {
+        self.tau.iter().copied().fold(f64::NAN, f64::max)
+    }
+
+    /// Burn-in to discard: two autocorrelation times (common practice), at most half the chain.
+    #[must_use]
+    pub fn burn_in(&self) -> usize {
+        let tau = self.tau_max();
+        let steps = self.chain.steps();
+        if tau.is_finite() {
+            ((2.0 * tau).ceil() as usize).min(steps / 2)
+        } else {
+            steps / 2
+        }
+    }
+
+    /// Thinning: half an autocorrelation time (common practice), at least 1.
+    #[must_use]
+    pub fn thin(&self) -> usize {
+        let tau = self.tau_max();
+        if tau.is_finite() {
+            ((0.5 * tau).floor() as usize).max(1)
+        } else {
+            1
+        }
+    }
+}
+
+/// Runs the ensemble from `state` until converged, capped, or stopped by the observer.
+pub fn run<D: LogDensity, M: Move, O: Observer>(
+    density: &D,
+    mv: &M,
+    mut state: EnsembleState,
+    config: &RunConfig,
+    observer: &mut O,
+) -> RunOutcome {
+    let mut chain = ChainStore::new(state.n_walkers(), density.dim(), density.n_derived());
+    let mut tau_previous: Option<f64> = None;
+    let mut tau = vec![f64::NAN; density.dim()];
+    let mut converged = false;
+    let mut cancelled = false;
+    let mut target_steps = None;
+    while state.step < config.max_steps {
+        state.advance(density, mv);
+        chain.record(&state);
+        let check = state.step % config.check_every.max(1) == 0
+            && state.step >= config.min_steps.min(config.max_steps);
+        if check {
+            tau = integrated_autocorr_times(&chain, 0);
+            let tau_max = tau.iter().copied().fold(f64::NAN, f64::max);
+            if tau_max.is_finite() {
+                target_steps = Some((config.tau_factor * tau_max).ceil() as usize);
+                let settled = tau_previous
+                    .is_some_and(|p| ((tau_max - p) / tau_max).abs() < config.tau_tolerance);
+                if state.step as f64 > config.tau_factor * tau_max && settled {
+                    converged = true;
+                }
+                tau_previous = Some(tau_max);
+            }
+        }
+        let progress = Progress {
+            step: state.step,
+            max_steps: config.max_steps,
+            acceptance: state.acceptance_fraction(),
+            tau_max: tau_previous,
+            target_steps,
+        };
+        if observer.on_progress(&progress) == Control::Stop {
+            cancelled = true;
+            break;
+        }
+        if converged {
+            break;
+        }
+    }
+    if !converged {
+        tau = integrated_autocorr_times(&chain, 0);
+    }
+    RunOutcome {
+        chain,
+        state,
+        tau,
+        converged,
+        cancelled,
+    }
+}
