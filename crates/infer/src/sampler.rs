@@ -99,7 +99,7 @@ impl EnsembleState {
         seed: u64,
     ) -> Result<Self, InferError> {
         let dim = density.dim();
-        if initial.len() < 2 * dim + 2 || initial.len() % 2 != 0 {
+        if initial.len() < 2 * dim + 2 || !initial.len().is_multiple_of(2) {
             return Err(InferError::Config(format!(
                 "need an even number of at least {} walkers for {dim} parameters, got {}",
                 2 * dim + 2,
@@ -219,11 +219,10 @@ impl ChainStore {
     /// Number of recorded steps.
     #[must_use]
     pub fn steps(&self) -> usize {
-        if self.n_walkers == 0 {
-            0
-        } else {
-            self.log_densities.len() / self.n_walkers
-        }
+        self.log_densities
+            .len()
+            .checked_div(self.n_walkers)
+            .unwrap_or(0)
     }
 
     /// Parameter `param` of walker `walker` at `step`.
@@ -388,7 +387,7 @@ pub fn run<D: LogDensity, M: Move, O: Observer>(
     while state.step < config.max_steps {
         state.advance(density, mv);
         chain.record(&state);
-        let check = state.step % config.check_every.max(1) == 0
+        let check = state.step.is_multiple_of(config.check_every.max(1))
             && state.step >= config.min_steps.min(config.max_steps);
         if check {
             tau = integrated_autocorr_times(&chain, 0);
