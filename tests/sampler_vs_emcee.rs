@@ -75,19 +75,17 @@ fn invert3(m: [[f64; 3]; 3]) -> [[f64; 3]; 3] {
     let det = m[0][0] * (m[1][1] * m[2][2] - m[1][2] * m[2][1])
         - m[0][1] * (m[1][0] * m[2][2] - m[1][2] * m[2][0])
         + m[0][2] * (m[1][0] * m[2][1] - m[1][1] * m[2][0]);
-    let mut inv = [[0.0; 3]; 3];
-    for i in 0..3 {
-        for j in 0..3 {
+    std::array::from_fn(|i| {
+        std::array::from_fn(|j| {
             // inv[i][j] = cofactor C[j][i] / det: drop row j and column i.
             let rows: Vec<usize> = (0..3).filter(|&r| r != j).collect();
             let cols: Vec<usize> = (0..3).filter(|&c| c != i).collect();
             let minor = m[rows[0]][cols[0]] * m[rows[1]][cols[1]]
                 - m[rows[0]][cols[1]] * m[rows[1]][cols[0]];
             let sign = if (i + j) % 2 == 0 { 1.0 } else { -1.0 };
-            inv[i][j] = sign * minor / det;
-        }
-    }
-    inv
+            sign * minor / det
+        })
+    })
 }
 
 /// Samples (burned, flattened) and their moments.
