@@ -84,12 +84,13 @@ pub(crate) fn run(args: &CheckArgs, verbosity: Verbosity) -> anyhow::Result<Exit
             "n_warnings": warnings,
             "n_errors": errors,
         });
-        println!("{}", serde_json::to_string_pretty(&report)?);
+        crate::output::print(&(serde_json::to_string_pretty(&report)? + "\n"))?;
     } else {
+        let mut text = String::new();
         for entry in &catalogue.entries {
             match &entry.table {
                 Ok(table) => {
-                    println!(
+                    text += &format!(
                         "ok     {:<24} {:>3} points  r {:>6.2}–{:<6.2} kpc  V_obs max {:>6.1} km/s  {} warning(s)",
                         table.meta.name,
                         table.len(),
@@ -98,24 +99,26 @@ pub(crate) fn run(args: &CheckArgs, verbosity: Verbosity) -> anyhow::Result<Exit
                         table.v_obs_max_kms(),
                         table.warnings.len()
                     );
+                    text.push('\n');
                     if verbosity == Verbosity::Verbose {
                         for w in &table.warnings {
-                            println!("       warning: {w}");
+                            text += &format!("       warning: {w}\n");
                         }
                     }
                 }
-                Err(error) => println!("FAILED {error}"),
+                Err(error) => text += &format!("FAILED {error}\n"),
             }
         }
         if verbosity != Verbosity::Quiet {
             for w in &catalogue_warnings {
-                println!("warning: {w}");
+                text += &format!("warning: {w}\n");
             }
         }
-        println!(
-            "{} galaxies, {points} points, {warnings} warnings, {errors} errors",
+        text += &format!(
+            "{} galaxies, {points} points, {warnings} warnings, {errors} errors\n",
             catalogue.entries.len()
         );
+        crate::output::print(&text)?;
     }
     Ok(if errors == 0 {
         ExitCode::SUCCESS

@@ -245,12 +245,14 @@ pub(crate) fn run(args: &CurveArgs, verbosity: Verbosity) -> anyhow::Result<Exit
         baryon_columns = Some((v_baryon, v_total));
     }
     if common.json {
-        println!("{}", serde_json::to_string_pretty(&Value::Object(fields))?);
+        crate::output::print(&(serde_json::to_string_pretty(&Value::Object(fields))? + "\n"))?;
     } else {
-        print!(
-            "{}",
-            text_report(&fields, radii, &v_halo, baryon_columns.as_ref())
-        );
+        crate::output::print(&text_report(
+            &fields,
+            radii,
+            &v_halo,
+            baryon_columns.as_ref(),
+        ))?;
     }
     Ok(ExitCode::SUCCESS)
 }

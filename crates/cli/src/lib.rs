@@ -5,8 +5,10 @@
 
 mod check;
 mod curve;
+mod fit;
 mod mock;
 mod options;
+mod output;
 
 use std::process::ExitCode;
 
@@ -14,6 +16,7 @@ use clap::{Parser, Subcommand};
 
 pub use check::CheckArgs;
 pub use curve::CurveArgs;
+pub use fit::FitArgs;
 pub use mock::MockArgs;
 
 /// Caldera: self-interacting dark matter constraints from galaxy rotation curves.
@@ -39,6 +42,9 @@ pub enum Command {
     /// Validate a galaxy table or a catalogue folder and summarise it.
     #[command(after_help = check::EXAMPLES)]
     Check(CheckArgs),
+    /// Fit a halo model to a galaxy's rotation curve (posterior of σ/m and the halo).
+    #[command(after_help = fit::EXAMPLES)]
+    Fit(Box<FitArgs>),
     /// Make an invented galaxy: its table and a truth file with every true parameter.
     #[command(after_help = mock::EXAMPLES)]
     Mock(Box<MockArgs>),
@@ -72,5 +78,6 @@ pub fn run(cli: &Cli) -> anyhow::Result<ExitCode> {
         Command::Curve(args) => curve::run(args, cli.verbosity()),
         Command::Check(args) => check::run(args, cli.verbosity()),
         Command::Mock(args) => mock::run(args, cli.verbosity()),
+        Command::Fit(args) => fit::run(args, cli.verbosity()),
     }
 }

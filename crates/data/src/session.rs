@@ -34,6 +34,30 @@ pub enum HaloModel {
     PseudoIsothermal,
 }
 
+impl HaloModel {
+    /// Every model, in the order tables list them.
+    pub const ALL: [Self; 4] = [Self::Sidm, Self::Nfw, Self::Burkert, Self::PseudoIsothermal];
+
+    /// The name used on the command line and in result tables.
+    #[must_use]
+    pub fn name(self) -> &'static str {
+        match self {
+            Self::Sidm => "sidm",
+            Self::Nfw => "nfw",
+            Self::Burkert => "burkert",
+            Self::PseudoIsothermal => "pseudo-iso",
+        }
+    }
+
+    /// The model called `name` (as [`HaloModel::name`] writes it).
+    #[must_use]
+    pub fn from_name(name: &str) -> Option<Self> {
+        Self::ALL
+            .into_iter()
+            .find(|m| m.name().eq_ignore_ascii_case(name.trim()))
+    }
+}
+
 /// What the user set for one galaxy (the controls' values).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct GalaxySettings {

@@ -3,6 +3,12 @@
 
 pub mod diagnostics;
 mod error;
+pub mod fit;
+pub mod model;
+pub mod optimize;
+pub mod priors;
 pub mod sampler;
+pub mod summary;
 
 pub use error::InferError;
+pub use fit::{FitConfig, FitResult, FitSummary, fit_galaxy};

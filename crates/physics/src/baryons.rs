@@ -208,6 +208,41 @@ impl BaryonTable {
         })
     }
 
+    /// Builds the table directly from strictly increasing radii (kpc) and the signed enclosed
+    /// masses r V_b²/G there (Msun), e.g. after rescaling a galaxy's distance.
+    pub fn from_signed_mass(
+        radii_kpc: Vec<f64>,
+        signed_mass_msun: Vec<f64>,
+    ) -> Result<Self, PhysicsError> {
+        if radii_kpc.is_empty() || radii_kpc.len() != signed_mass_msun.len() {
+            return Err(PhysicsError::InvalidTable(format!(
+                "{} radii and {} masses",
+                radii_kpc.len(),
+                signed_mass_msun.len()
+            )));
+        }
+        let mut previous = 0.0;
+        for &r in &radii_kpc {
+            require_positive("radius [kpc]", r)?;
+            if r <= previous {
+                return Err(PhysicsError::InvalidTable(format!(
+                    "radii must increase strictly; {r} kpc follows {previous} kpc"
+                )));
+            }
+            previous = r;
+        }
+        if let Some(&bad) = signed_mass_msun.iter().find(|m| !m.is_finite()) {
+            return Err(PhysicsError::NonFinite {
+                what: "baryonic enclosed mass [Msun]",
+                value: bad,
+            });
+        }
+        Ok(Self {
+            radii_kpc,
+            signed_mass_msun,
+        })
+    }
+
     /// The tabulated radii, kpc.
     #[must_use]
     pub fn radii_kpc(&self) -> &[f64] {

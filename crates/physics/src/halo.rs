@@ -148,6 +148,44 @@ impl HaloProfile for Nfw {
     }
 }
 
+/// The virial radius r200 of any halo: where its mean enclosed density is 200 ρ_crit, kpc.
+pub fn virial_radius_kpc(
+    halo: &dyn HaloProfile,
+    cosmology: &Cosmology,
+) -> Result<f64, PhysicsError> {
+    let target = VIRIAL_OVERDENSITY * cosmology.critical_density_msun_kpc3();
+    // ln(mean density / target) falls with radius for every profile here; bracket in ln r.
+    let excess = |ln_r: f64| {
+        let r = ln_r.exp();
+        (3.0 * halo.enclosed_mass_msun(r) / (4.0 * PI * r * r * r)).ln() - target.ln()
+    };
+    brent(
+        excess,
+        (1e-4f64).ln(),
+        (1e5f64).ln(),
+        1e-12,
+        "virial radius",
+    )
+    .map(f64::exp)
+}
+
+/// V200, c200 (from a given scale radius r_−2 where the log-slope is −2), r200 and M200 of any
+/// halo, by [`virial_radius_kpc`].
+pub fn virial_quantities(
+    halo: &dyn HaloProfile,
+    r_minus2_kpc: f64,
+    cosmology: &Cosmology,
+) -> Result<VirialQuantities, PhysicsError> {
+    let r200_kpc = virial_radius_kpc(halo, cosmology)?;
+    let v200_kms = cosmology.v200_kms_from_r200(r200_kpc);
+    Ok(VirialQuantities {
+        v200_kms,
+        c200: r200_kpc / r_minus2_kpc,
+        r200_kpc,
+        m200_msun: v200_kms * v200_kms * r200_kpc / G_KPC_KMS2_PER_MSUN,
+    })
+}
+
 /// The Burkert (1995) cored profile: ρ = ρ0 r0³ / [(r + r0)(r² + r0²)].
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct Burkert {
@@ -164,6 +202,24 @@ impl Burkert {
                 rho0_msun_kpc3,
             )?,
             r0_kpc: require_positive("Burkert core radius [kpc]", r0_kpc)?,
+        })
+    }
+}
+
+impl Burkert {
+    /// r_−2 / r0 for the Burkert profile: the root of x/(1+x) + 2x²/(1+x²) = 2 (where
+    /// d ln ρ / d ln r = −2), ≈ 1.5214; used to define its concentration r200 / r_−2.
+    pub fn r_minus2_over_r0() -> f64 {
+        static VALUE: std::sync::OnceLock<f64> = std::sync::OnceLock::new();
+        *VALUE.get_or_init(|| {
+            brent(
+                |x| x / (1.0 + x) + 2.0 * x * x / (1.0 + x * x) - 2.0,
+                1.0,
+                3.0,
+                1e-14,
+                "Burkert r_-2",
+            )
+            .unwrap_or(1.5214)
         })
     }
 }
@@ -286,6 +342,25 @@ mod tests {
             assert_relative_eq!(r_max / halo.r_s_kpc, 2.16258, max_relative = 1e-4);
             assert_relative_eq!(v_max / 100.0, ratio, max_relative = 1e-5);
         }
+    }
+
+    #[test]
+    fn generic_virial_quantities_agree_with_the_nfw_closed_form() {
+        let cosmo = Cosmology::default();
+        let halo = Nfw::from_m200_c200(1e11, 12.0, &cosmo).expect("valid");
+        let closed = halo.virial(&cosmo).expect("virial");
+        let generic = virial_quantities(&halo, halo.r_s_kpc, &cosmo).expect("virial");
+        assert_relative_eq!(generic.r200_kpc, closed.r200_kpc, max_relative = 1e-10);
+        assert_relative_eq!(generic.m200_msun, 1e11, max_relative = 1e-9);
+        assert_relative_eq!(generic.c200, 12.0, max_relative = 1e-9);
+        // Burkert r_−2: the log-slope there is −2.
+        let x = Burkert::r_minus2_over_r0();
+        let b = Burkert::new(1e7, 1.0).expect("valid");
+        let h = 1e-6;
+        let slope = (b.density_msun_kpc3(x * (1.0 + h)).ln()
+            - b.density_msun_kpc3(x * (1.0 - h)).ln())
+            / ((1.0 + h).ln() - (1.0 - h).ln());
+        assert_relative_eq!(slope, -2.0, max_relative = 1e-8);
     }
 
     #[test]

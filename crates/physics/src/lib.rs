@@ -38,5 +38,8 @@ pub use baryons::{
 pub use cosmology::Cosmology;
 pub use cross_section::CrossSection;
 pub use error::PhysicsError;
-pub use halo::{Burkert, HaloProfile, Nfw, PseudoIsothermal, VirialQuantities};
+pub use halo::{
+    Burkert, HaloProfile, Nfw, PseudoIsothermal, VirialQuantities, virial_quantities,
+    virial_radius_kpc,
+};
 pub use sidm::{Branch, SidmHalo, SidmSetup, SidmSummary};

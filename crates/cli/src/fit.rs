@@ -1,0 +1,259 @@
+//! `caldera fit`: Bayesian fits of halo models to galaxy rotation curves.
+
+use std::path::PathBuf;
+use std::process::ExitCode;
+
+use anyhow::{Context, bail};
+use caldera_data::session::HaloModel;
+use caldera_data::{GalaxyTable, read_table, write_atomic};
+use caldera_infer::priors::{CrossSectionPrior, Priors};
+use caldera_infer::sampler::{Control, Progress, RunConfig};
+use caldera_infer::summary::Interval;
+use caldera_infer::{FitConfig, FitSummary, fit_galaxy};
+use caldera_physics::Cosmology;
+use clap::{Args, ValueEnum};
+
+use crate::Verbosity;
+use crate::options::TableOptions;
+
+pub(crate) const EXAMPLES: &str = "\
+Examples:
+  caldera fit demo_galaxies/kiln_d03.ecsv --model sidm
+  caldera fit galaxy.csv --model nfw --json --seed 7
+  caldera fit galaxy.csv --model sidm --sigma-prior linear --sigma-max 20 --chain chain.csv";
+
+/// How σ/m is sampled.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum SigmaScale {
+    /// Uniform in log10(σ/m).
+    Log,
+    /// Uniform in σ/m.
+    Linear,
+}
+
+/// Arguments of `caldera fit`.
+#[derive(Debug, Args)]
+pub struct FitArgs {
+    /// A galaxy table.
+    pub path: PathBuf,
+    /// Halo model: sidm, nfw, burkert or pseudo-iso.
+    #[arg(long, default_value = "sidm", value_name = "MODEL")]
+    pub model: String,
+    /// Print the summary as one JSON object.
+    #[arg(long)]
+    pub json: bool,
+    /// Random seed (the same seed gives the same chain).
+    #[arg(long, default_value_t = 1)]
+    pub seed: u64,
+    /// Write the kept posterior samples to this CSV file.
+    #[arg(long, value_name = "FILE")]
+    pub chain: Option<PathBuf>,
+    #[command(flatten)]
+    pub settings: FitSettings,
+    #[command(flatten)]
+    pub table: TableOptions,
+}
+
+/// Priors and sampler settings shared by single and catalogue fits.
+#[derive(Debug, Args)]
+pub struct FitSettings {
+    /// Halo age for the SIDM rate condition, Gyr (default: the table's, else 10).
+    #[arg(long, value_name = "GYR")]
+    pub age: Option<f64>,
+    /// Hubble constant, km/s/Mpc.
+    #[arg(long, default_value_t = 70.0, value_name = "KM/S/MPC")]
+    pub h0: f64,
+    /// Sample σ/m uniformly in its logarithm or linearly.
+    #[arg(long, value_enum, default_value_t = SigmaScale::Log)]
+    pub sigma_prior: SigmaScale,
+    /// Lower bound of the σ/m prior, cm²/g.
+    #[arg(long, default_value_t = 0.01, value_name = "CM2/G")]
+    pub sigma_min: f64,
+    /// Upper bound of the σ/m prior, cm²/g.
+    #[arg(long, default_value_t = 100.0, value_name = "CM2/G")]
+    pub sigma_max: f64,
+    /// Do not apply the Dutton–Macciò concentration–mass prior.
+    #[arg(long)]
+    pub no_concentration_prior: bool,
+    /// Keep the distance fixed at the table's value.
+    #[arg(long)]
+    pub fixed_distance: bool,
+    /// Keep the inclination fixed at the table's value.
+    #[arg(long)]
+    pub fixed_inclination: bool,
+    /// Error floor added in quadrature to every velocity error, km/s.
+    #[arg(long, default_value_t = 0.0, value_name = "KM/S")]
+    pub error_floor: f64,
+    /// Ensemble walkers.
+    #[arg(long, default_value_t = 32)]
+    pub walkers: usize,
+    /// Most sampler steps; a chain stopped here is marked unconverged.
+    #[arg(long, default_value_t = 20_000)]
+    pub max_steps: usize,
+    /// Run until the chain is longer than this many autocorrelation times.
+    #[arg(long, default_value_t = 50.0)]
+    pub tau_factor: f64,
+}
+
+impl FitSettings {
+    /// The fit configuration these flags describe.
+    pub fn config(&self, seed: u64) -> anyhow::Result<FitConfig> {
+        let cosmology = Cosmology::with_hubble(self.h0).context("invalid --h0")?;
+        if let Some(age) = self.age
+            && !(age.is_finite() && age > 0.0)
+        {
+            bail!("--age must be a positive number of Gyr, got {age}");
+        }
+        let priors = Priors {
+            cross_section: CrossSectionPrior {
+                logarithmic: self.sigma_prior == SigmaScale::Log,
+                min_cm2_g: self.sigma_min,
+                max_cm2_g: self.sigma_max,
+            },
+            concentration_mass: !self.no_concentration_prior,
+            vary_distance: !self.fixed_distance,
+            vary_inclination: !self.fixed_inclination,
+            error_floor_kms: self.error_floor,
+            ..Priors::default()
+        };
+        Ok(FitConfig {
+            priors,
+            run: RunConfig {
+                tau_factor: self.tau_factor,
+                max_steps: self.max_steps,
+                ..RunConfig::default()
+            },
+            n_walkers: self.walkers,
+            seed,
+            cosmology,
+            age_gyr: self.age,
+            ..FitConfig::default()
+        })
+    }
+}
+
+/// Parses a model name, listing the known ones on failure.
+pub(crate) fn parse_model(name: &str) -> anyhow::Result<HaloModel> {
+    HaloModel::from_name(name).with_context(|| {
+        format!(
+            "unknown model '{name}'; choose from {}",
+            HaloModel::ALL.map(HaloModel::name).join(", ")
+        )
+    })
+}
+
+/// Runs `caldera fit` on one table.
+pub(crate) fn run(args: &FitArgs, verbosity: Verbosity) -> anyhow::Result<ExitCode> {
+    let model = parse_model(&args.model)?;
+    let config = args.settings.config(args.seed)?;
+    let table = read_table(&args.path, &args.table.read_options()?)?;
+    if verbosity != Verbosity::Quiet {
+        for w in &table.warnings {
+            eprintln!("warning: {w}");
+        }
+    }
+    let result = fit_one(&table, model, &config, verbosity)
+        .with_context(|| format!("fit of {} ({}) failed", table.meta.name, model.name()))?;
+    if let Some(path) = &args.chain {
+        let text = result.chain_table().to_csv(path)?;
+        write_atomic(path, text.as_bytes())?;
+    }
+    if args.json {
+        crate::output::print(&(serde_json::to_string_pretty(&result.summary)? + "\n"))?;
+    } else {
+        crate::output::print(&text_summary(&result.summary))?;
+    }
+    Ok(ExitCode::SUCCESS)
+}
+
+/// Fits one galaxy, printing sampler progress on standard error when verbose.
+pub(crate) fn fit_one(
+    table: &GalaxyTable,
+    model: HaloModel,
+    config: &FitConfig,
+    verbosity: Verbosity,
+) -> anyhow::Result<caldera_infer::FitResult> {
+    let mut observer = |p: &Progress| {
+        if verbosity == Verbosity::Verbose && p.step.is_multiple_of(500) {
+            eprintln!(
+                "  step {:>6}/{}  acceptance {:.2}  tau_max {}  target {}",
+                p.step,
+                p.max_steps,
+                p.acceptance,
+                p.tau_max.map_or("-".into(), |t| format!("{t:.0}")),
+                p.target_steps.map_or("-".into(), |t| t.to_string())
+            );
+        }
+        Control::Continue
+    };
+    Ok(fit_galaxy(table, model, config, &mut observer)?)
+}
+
+fn interval_line(label: &str, unit: &str, interval: Option<&Interval>) -> String {
+    match interval {
+        None => String::new(),
+        Some(i) => match i.upper95 {
+            Some(limit) => format!(
+                "  {label:<18} < {limit:.3} {unit} (95% upper limit; posterior piles at the prior's lower bound)\n"
+            ),
+            None => format!(
+                "  {label:<18} {:.3} (+{:.3} / -{:.3}) {unit}   [95%: {:.3} – {:.3}]\n",
+                i.median,
+                i.p84 - i.median,
+                i.median - i.p16,
+                i.p2_5,
+                i.p97_5
+            ),
+        },
+    }
+}
+
+/// The human-readable fit summary.
+pub(crate) fn text_summary(s: &FitSummary) -> String {
+    let mut out = format!(
+        "{} — {} halo, {} points, {} free parameters\n",
+        s.galaxy, s.model, s.n_points, s.n_parameters
+    );
+    out.push_str(&interval_line("sigma/m", "cm2/g", s.sigma_m_cm2_g.as_ref()));
+    out.push_str(&interval_line("<v_rel>", "km/s", s.v_rel_kms.as_ref()));
+    out.push_str(&interval_line("r1", "kpc", s.r1_kpc.as_ref()));
+    out.push_str(&interval_line(
+        "core radius",
+        "kpc",
+        s.core_radius_kpc.as_ref(),
+    ));
+    out.push_str(&interval_line("V200", "km/s", s.v200_kms.as_ref()));
+    out.push_str(&interval_line("c200", "", s.c200.as_ref()));
+    out.push_str(&interval_line(
+        "Upsilon disk",
+        "Msun/Lsun",
+        s.upsilon_disk.as_ref(),
+    ));
+    out.push_str(&interval_line(
+        "Upsilon bulge",
+        "Msun/Lsun",
+        s.upsilon_bulge.as_ref(),
+    ));
+    out.push_str(&interval_line("distance", "Mpc", s.distance_mpc.as_ref()));
+    out.push_str(&interval_line(
+        "inclination",
+        "deg",
+        s.inclination_deg.as_ref(),
+    ));
+    out.push_str(&format!(
+        "  chi2 = {:.2} for {} dof (chi2/nu = {:.2}), AIC = {:.2}, BIC = {:.2}\n",
+        s.chi2, s.dof, s.chi2_nu, s.aic, s.bic
+    ));
+    let status = if s.converged {
+        "converged".to_string()
+    } else if s.cancelled {
+        "NOT CONVERGED (stopped) — do not trust these intervals".to_string()
+    } else {
+        "NOT CONVERGED (step cap reached) — do not trust these intervals".to_string()
+    };
+    out.push_str(&format!(
+        "  {status}: tau_max {:.0} steps, {} steps x {} walkers, acceptance {:.2}, split R-hat {:.3}, {} evaluations\n",
+        s.tau_max, s.n_steps, s.n_walkers, s.acceptance, s.rhat_max, s.n_evaluations
+    ));
+    out
+}

@@ -1,0 +1,300 @@
+//! One galaxy, one halo model: MAP, then the ensemble sampler until converged, then summaries.
+
+use std::collections::BTreeMap;
+
+use caldera_data::session::HaloModel;
+use caldera_data::{GalaxyTable, OutputTable};
+use caldera_physics::Cosmology;
+use rand::SeedableRng;
+use rand_distr::{Distribution, StandardNormal};
+use rand_xoshiro::Xoshiro256PlusPlus;
+use serde::{Deserialize, Serialize};
+
+use crate::InferError;
+use crate::diagnostics::split_rhat;
+use crate::model::{DERIVED_NAMES, Derived, Evaluation, FailureSummary, GalaxyModel, Parameter};
+use crate::optimize::maximum_a_posteriori;
+use crate::priors::Priors;
+use crate::sampler::{ChainStore, EnsembleState, LogDensity, MoveMix, Observer, RunConfig, run};
+use crate::summary::{Interval, interval, piles_at_lower_bound, quantile};
+
+/// Everything that controls a fit (saved with a session).
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct FitConfig {
+    pub priors: Priors,
+    pub run: RunConfig,
+    /// Walkers (raised to at least 2·dim + 2 and made even).
+    pub n_walkers: usize,
+    pub seed: u64,
+    /// Optimiser starts for the MAP.
+    pub map_starts: usize,
+    pub cosmology: Cosmology,
+    /// Halo age, Gyr; None uses the table's, else 10 Gyr.
+    pub age_gyr: Option<f64>,
+    /// The sampler's moves.
+    pub moves: MoveMix,
+}
+
+impl Default for FitConfig {
+    fn default() -> Self {
+        Self {
+            priors: Priors::default(),
+            run: RunConfig::default(),
+            n_walkers: 32,
+            seed: 1,
+            map_starts: 6,
+            cosmology: Cosmology::default(),
+            age_gyr: None,
+            moves: MoveMix::default(),
+        }
+    }
+}
+
+/// The summary of a fit, as the CLI prints it and result tables store it.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct FitSummary {
+    pub galaxy: String,
+    pub model: String,
+    pub sigma_m_cm2_g: Option<Interval>,
+    pub v_rel_kms: Option<Interval>,
+    pub r1_kpc: Option<Interval>,
+    pub core_radius_kpc: Option<Interval>,
+    pub v200_kms: Option<Interval>,
+    pub c200: Option<Interval>,
+    pub m200_msun: Option<Interval>,
+    pub upsilon_disk: Option<Interval>,
+    pub upsilon_bulge: Option<Interval>,
+    pub distance_mpc: Option<Interval>,
+    pub inclination_deg: Option<Interval>,
+    /// χ² and log-likelihood at the best-fitting point found (MAP or a sample).
+    pub chi2: f64,
+    pub dof: usize,
+    pub chi2_nu: f64,
+    pub log_likelihood_max: f64,
+    /// AIC = 2k − 2 ln L_max; BIC = k ln N − 2 ln L_max.
+    pub aic: f64,
+    pub bic: f64,
+    pub n_parameters: usize,
+    pub n_points: usize,
+    pub converged: bool,
+    pub cancelled: bool,
+    pub tau_max: f64,
+    pub rhat_max: f64,
+    pub acceptance: f64,
+    pub n_evaluations: u64,
+    pub n_walkers: usize,
+    pub n_steps: usize,
+    pub burn_in: usize,
+    pub thin: usize,
+    pub n_samples: usize,
+    pub seed: u64,
+    pub age_gyr: f64,
+    /// Best-fitting physical parameter values, by sampled-parameter name.
+    pub best_fit: BTreeMap<String, f64>,
+    pub failures: FailureSummary,
+}
+
+/// A finished fit: its summary, the kept samples and the best-fitting model curve.
+#[derive(Debug, Clone)]
+pub struct FitResult {
+    pub summary: FitSummary,
+    pub parameters: Vec<Parameter>,
+    pub chain: ChainStore,
+    pub burn_in: usize,
+    pub thin: usize,
+    pub best_theta: Vec<f64>,
+    pub best: Evaluation,
+}
+
+fn normal(rng: &mut Xoshiro256PlusPlus) -> f64 {
+    Distribution::<f64>::sample(&StandardNormal, rng)
+}
+
+/// Fits `model` to `table`.
+pub fn fit_galaxy<O: Observer>(
+    table: &GalaxyTable,
+    model: HaloModel,
+    config: &FitConfig,
+    observer: &mut O,
+) -> Result<FitResult, InferError> {
+    let posterior = GalaxyModel::new(
+        table,
+        model,
+        config.priors,
+        config.cosmology,
+        config.age_gyr,
+    )?;
+    let dim = posterior.dim();
+    let map = maximum_a_posteriori(&posterior, config.map_starts, config.seed)?;
+
+    // Walkers in a small ball around the MAP, each with a positive posterior.
+    let n_walkers = {
+        let n = config.n_walkers.max(2 * dim + 2);
+        n + n % 2
+    };
+    let mut rng = Xoshiro256PlusPlus::seed_from_u64(config.seed ^ 0x5eed_ba11);
+    let mut derived = vec![f64::NAN; posterior.n_derived()];
+    let mut initial = Vec::with_capacity(n_walkers);
+    for _ in 0..n_walkers {
+        let mut placed = map.theta.clone();
+        for scale in [1e-2, 1e-3, 1e-4, 1e-6] {
+            let trial: Vec<f64> = map
+                .theta
+                .iter()
+                .zip(posterior.parameters())
+                .map(|(x, p)| x + scale * (p.upper - p.lower) * normal(&mut rng))
+                .collect();
+            if posterior.log_density(&trial, &mut derived).is_finite() {
+                placed = trial;
+                break;
+            }
+        }
+        initial.push(placed);
+    }
+    let state = EnsembleState::new(&posterior, initial, config.seed)?;
+    let outcome = run(&posterior, &config.moves, state, &config.run, observer);
+    let burn_in = outcome.burn_in();
+    let thin = outcome.thin();
+    let chain = &outcome.chain;
+    let kept: Vec<(usize, usize)> = chain.kept(burn_in, thin).collect();
+    let column = |d: Derived| {
+        kept.iter()
+            .map(|&(s, w)| chain.derived(s, w, d as usize))
+            .collect::<Vec<f64>>()
+    };
+
+    // Best fit: the highest likelihood among the MAP and the kept samples.
+    let (map_evaluation, map_derived) = posterior.evaluate(&map.theta)?;
+    let mut best_theta = map.theta.clone();
+    let mut best_log_likelihood = map_derived[Derived::LogLikelihood as usize];
+    for &(s, w) in &kept {
+        let ll = chain.derived(s, w, Derived::LogLikelihood as usize);
+        if ll > best_log_likelihood {
+            best_log_likelihood = ll;
+            best_theta = (0..dim).map(|p| chain.position(s, w, p)).collect();
+        }
+    }
+    let best = if best_theta == map.theta {
+        map_evaluation
+    } else {
+        posterior.evaluate(&best_theta)?.0
+    };
+
+    let k = dim;
+    let n = posterior.n_points();
+    let dof = n.saturating_sub(k);
+    let mut sigma_m = interval(column(Derived::SigmaM));
+    if model == HaloModel::Sidm {
+        let p = &posterior.parameters()[2];
+        let coordinates: Vec<f64> = kept.iter().map(|&(s, w)| chain.position(s, w, 2)).collect();
+        if piles_at_lower_bound(&coordinates, p.lower, p.upper)
+            && let Some(summary) = sigma_m.as_mut()
+        {
+            let mut physical: Vec<f64> = coordinates.iter().map(|&c| p.physical(c)).collect();
+            physical.sort_by(f64::total_cmp);
+            summary.upper95 = Some(quantile(&physical, 0.95));
+        }
+    }
+    let rhat_max = split_rhat(chain, burn_in)
+        .into_iter()
+        .fold(f64::NAN, f64::max);
+    let summary = FitSummary {
+        galaxy: table.meta.name.clone(),
+        model: model.name().to_string(),
+        sigma_m_cm2_g: sigma_m,
+        v_rel_kms: interval(column(Derived::VRel)),
+        r1_kpc: interval(column(Derived::R1)),
+        core_radius_kpc: interval(column(Derived::CoreRadius)),
+        v200_kms: interval(column(Derived::V200)),
+        c200: interval(column(Derived::C200)),
+        m200_msun: interval(column(Derived::M200)),
+        upsilon_disk: interval(column(Derived::UpsilonDisk)),
+        upsilon_bulge: interval(column(Derived::UpsilonBulge)),
+        distance_mpc: interval(column(Derived::Distance)),
+        inclination_deg: interval(column(Derived::Inclination)),
+        chi2: best.chi2,
+        dof,
+        chi2_nu: if dof > 0 {
+            best.chi2 / dof as f64
+        } else {
+            f64::NAN
+        },
+        log_likelihood_max: best.log_likelihood,
+        aic: 2.0 * k as f64 - 2.0 * best.log_likelihood,
+        bic: k as f64 * (n as f64).ln() - 2.0 * best.log_likelihood,
+        n_parameters: k,
+        n_points: n,
+        converged: outcome.converged,
+        cancelled: outcome.cancelled,
+        tau_max: outcome.tau_max(),
+        rhat_max,
+        acceptance: outcome.state.acceptance_fraction(),
+        n_evaluations: posterior.failure_summary().evaluations,
+        n_walkers,
+        n_steps: chain.steps(),
+        burn_in,
+        thin,
+        n_samples: kept.len(),
+        seed: config.seed,
+        age_gyr: posterior.age_gyr,
+        best_fit: posterior
+            .parameters()
+            .iter()
+            .zip(&best_theta)
+            .map(|(p, &x)| {
+                let name = p.name.strip_prefix("log10_").unwrap_or(&p.name).to_string();
+                (name, p.physical(x))
+            })
+            .collect(),
+        failures: posterior.failure_summary(),
+    };
+    Ok(FitResult {
+        summary,
+        parameters: posterior.parameters().to_vec(),
+        chain: outcome.chain.clone(),
+        burn_in,
+        thin,
+        best_theta,
+        best,
+    })
+}
+
+impl FitResult {
+    /// The kept samples as a table: sampled coordinates, then derived quantities.
+    #[must_use]
+    pub fn chain_table(&self) -> OutputTable {
+        let kept: Vec<(usize, usize)> = self.chain.kept(self.burn_in, self.thin).collect();
+        let mut table = OutputTable::default()
+            .with_column("step", None, kept.iter().map(|&(s, _)| s as f64).collect())
+            .with_column(
+                "walker",
+                None,
+                kept.iter().map(|&(_, w)| w as f64).collect(),
+            );
+        for (p, parameter) in self.parameters.iter().enumerate() {
+            table = table.with_column(
+                &parameter.name,
+                None,
+                kept.iter()
+                    .map(|&(s, w)| self.chain.position(s, w, p))
+                    .collect(),
+            );
+        }
+        for (d, name) in DERIVED_NAMES.iter().enumerate() {
+            table = table.with_column(
+                name,
+                None,
+                kept.iter()
+                    .map(|&(s, w)| self.chain.derived(s, w, d))
+                    .collect(),
+            );
+        }
+        table.with_column(
+            "log_posterior",
+            None,
+            kept.iter()
+                .map(|&(s, w)| self.chain.log_density(s, w))
+                .collect(),
+        )
+    }
+}

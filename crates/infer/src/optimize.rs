@@ -1,0 +1,129 @@
+//! Maximum a posteriori by Nelder–Mead (argmin) from several starts.
+
+use argmin::core::{CostFunction, Error, Executor, State};
+use argmin::solver::neldermead::NelderMead;
+use rand::{RngExt, SeedableRng};
+use rand_xoshiro::Xoshiro256PlusPlus;
+
+use crate::InferError;
+use crate::model::GalaxyModel;
+use crate::sampler::LogDensity;
+
+/// Cost given to points with zero posterior, so the simplex moves away from them.
+const REFUSED_COST: f64 = 1e100;
+
+struct NegativeLogPosterior<'a> {
+    model: &'a GalaxyModel,
+}
+
+impl CostFunction for NegativeLogPosterior<'_> {
+    type Param = Vec<f64>;
+    type Output = f64;
+
+    fn cost(&self, theta: &Self::Param) -> Result<Self::Output, Error> {
+        let mut derived = vec![f64::NAN; self.model.n_derived()];
+        let lp = self.model.log_density(theta, &mut derived);
+        Ok(if lp.is_finite() { -lp } else { REFUSED_COST })
+    }
+}
+
+/// The best point found and its log-posterior.
+#[derive(Debug, Clone, PartialEq)]
+pub struct MapEstimate {
+    pub theta: Vec<f64>,
+    pub log_posterior: f64,
+}
+
+/// Draws a point uniformly within the bounds, nuisances at their centres, until its posterior is
+/// positive (at most `tries` draws).
+pub fn valid_random_start(
+    model: &GalaxyModel,
+    rng: &mut Xoshiro256PlusPlus,
+    tries: usize,
+) -> Option<Vec<f64>> {
+    let centre = model.centre();
+    let halo_parameters = match model.model {
+        caldera_data::session::HaloModel::Sidm => 3,
+        _ => 2,
+    };
+    let mut derived = vec![f64::NAN; model.n_derived()];
+    for _ in 0..tries {
+        let mut theta = centre.clone();
+        for (k, p) in model.parameters().iter().enumerate().take(halo_parameters) {
+            theta[k] = p.lower + (p.upper - p.lower) * rng.random::<f64>();
+        }
+        if model.log_density(&theta, &mut derived).is_finite() {
+            return Some(theta);
+        }
+    }
+    None
+}
+
+fn nelder_mead(
+    model: &GalaxyModel,
+    start: &[f64],
+    max_iterations: u64,
+) -> Result<MapEstimate, InferError> {
+    let mut vertices = vec![start.to_vec()];
+    for (k, p) in model.parameters().iter().enumerate() {
+        let mut v = start.to_vec();
+        let step = 0.05 * (p.upper - p.lower);
+        v[k] = if v[k] + step <= p.upper {
+            v[k] + step
+        } else {
+            v[k] - step
+        };
+        vertices.push(v);
+    }
+    let solver = NelderMead::new(vertices)
+        .with_sd_tolerance(1e-10)
+        .map_err(|e| InferError::Config(format!("optimiser set-up: {e}")))?;
+    let result = Executor::new(NegativeLogPosterior { model }, solver)
+        .configure(|state| state.max_iters(max_iterations))
+        .run()
+        .map_err(|e| InferError::Config(format!("optimiser: {e}")))?;
+    let state = result.state();
+    let theta = state
+        .get_best_param()
+        .cloned()
+        .unwrap_or_else(|| start.to_vec());
+    Ok(MapEstimate {
+        log_posterior: -state.get_best_cost(),
+        theta,
+    })
+}
+
+/// Maximum a posteriori: Nelder–Mead from `starts` random valid points, the best polished by a
+/// second run.
+pub fn maximum_a_posteriori(
+    model: &GalaxyModel,
+    starts: usize,
+    seed: u64,
+) -> Result<MapEstimate, InferError> {
+    let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
+    let mut best: Option<MapEstimate> = None;
+    for _ in 0..starts.max(1) {
+        let Some(start) = valid_random_start(model, &mut rng, 2000) else {
+            continue;
+        };
+        let estimate = nelder_mead(model, &start, 2000)?;
+        if best
+            .as_ref()
+            .is_none_or(|b| estimate.log_posterior > b.log_posterior)
+        {
+            best = Some(estimate);
+        }
+    }
+    let best = best.ok_or_else(|| {
+        InferError::NoValidStart(format!(
+            "no point with a positive posterior found in 2000 random draws (model {})",
+            model.model.name()
+        ))
+    })?;
+    let polished = nelder_mead(model, &best.theta, 2000)?;
+    Ok(if polished.log_posterior > best.log_posterior {
+        polished
+    } else {
+        best
+    })
+}
