@@ -3,6 +3,7 @@
 //! Exit codes: 0 success, 1 failure (the reason is printed once on standard error), 2 usage
 //! error (printed by the argument parser).
 
+mod calibrate;
 mod check;
 mod curve;
 mod fit;
@@ -14,6 +15,7 @@ use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
 
+pub use calibrate::CalibrateArgs;
 pub use check::CheckArgs;
 pub use curve::CurveArgs;
 pub use fit::FitArgs;
@@ -45,6 +47,9 @@ pub enum Command {
     /// Fit a halo model to a galaxy's rotation curve (posterior of σ/m and the halo).
     #[command(after_help = fit::EXAMPLES)]
     Fit(Box<FitArgs>),
+    /// Check that the SIDM fit's intervals are calibrated, on mocks drawn from its prior.
+    #[command(after_help = calibrate::EXAMPLES)]
+    Calibrate(CalibrateArgs),
     /// Make an invented galaxy: its table and a truth file with every true parameter.
     #[command(after_help = mock::EXAMPLES)]
     Mock(Box<MockArgs>),
@@ -79,5 +84,6 @@ pub fn run(cli: &Cli) -> anyhow::Result<ExitCode> {
         Command::Check(args) => check::run(args, cli.verbosity()),
         Command::Mock(args) => mock::run(args, cli.verbosity()),
         Command::Fit(args) => fit::run(args, cli.verbosity()),
+        Command::Calibrate(args) => calibrate::run(args, cli.verbosity()),
     }
 }

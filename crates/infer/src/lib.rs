@@ -1,6 +1,7 @@
 //! Caldera's inference: priors, likelihood, maximum a posteriori, the affine-invariant ensemble
 //! sampler, chain diagnostics and summaries.
 
+pub mod calibration;
 pub mod diagnostics;
 mod error;
 pub mod fit;
