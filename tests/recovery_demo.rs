@@ -39,8 +39,9 @@ fn demo_truths_fall_inside_their_95_percent_intervals() {
             "{}.truth.json",
             path.file_stem().expect("stem").to_string_lossy()
         ));
-        let truth: Value = serde_json::from_str(&std::fs::read_to_string(&truth_path).expect("truth"))
-            .expect("truth JSON");
+        let truth: Value =
+            serde_json::from_str(&std::fs::read_to_string(&truth_path).expect("truth"))
+                .expect("truth JSON");
         let Some(sigma_true) = truth["spec"]["halo"]["sigma_m_cm2_g"].as_f64() else {
             continue; // not an SIDM galaxy
         };
@@ -71,5 +72,8 @@ fn demo_truths_fall_inside_their_95_percent_intervals() {
     }
     eprintln!("{misses} misses in {checks} checks");
     assert!(checks >= 28, "only {checks} checks");
-    assert!(misses <= 4, "{misses} of {checks} truths outside their 95% intervals");
+    assert!(
+        misses <= 4,
+        "{misses} of {checks} truths outside their 95% intervals"
+    );
 }

@@ -2,9 +2,9 @@
 
 use std::process::ExitCode;
 
+use caldera_infer::FitConfig;
 use caldera_infer::calibration::{calibration_priors, coverage_run};
 use caldera_infer::sampler::RunConfig;
-use caldera_infer::FitConfig;
 use clap::Args;
 
 use crate::Verbosity;
@@ -55,7 +55,14 @@ pub(crate) fn run(args: &CalibrateArgs, verbosity: Verbosity) -> anyhow::Result<
     } else {
         let mut text = format!(
             "{} mocks, {} fitted, {} unconverged (seed {})\n{:<24} {:>8} {:>8} {:>10}  rank histogram\n",
-            report.n_mocks, report.n_fitted, report.n_unconverged, report.seed, "parameter", "68% cov", "95% cov", "rank chi2"
+            report.n_mocks,
+            report.n_fitted,
+            report.n_unconverged,
+            report.seed,
+            "parameter",
+            "68% cov",
+            "95% cov",
+            "rank chi2"
         );
         for p in &report.parameters {
             text += &format!(

@@ -17,12 +17,12 @@ use rand_xoshiro::Xoshiro256PlusPlus;
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 
+use crate::InferError;
 use crate::fit::{FitConfig, fit_galaxy};
 use crate::model::{Derived, GalaxyModel};
 use crate::priors::{CrossSectionPrior, HaloBounds, Priors, ln_normal};
 use crate::sampler::{LogDensity, Silent};
 use crate::summary::quantile;
-use crate::InferError;
 
 /// Number of posterior draws each truth is ranked among.
 pub const RANK_DRAWS: usize = 99;
@@ -57,7 +57,12 @@ pub fn template() -> GalaxyTable {
     let velocity = |mass: f64, scale: f64| -> Vec<f64> {
         ExponentialDisk::new(mass, scale).map_or_else(
             |_| vec![0.0; radius_kpc.len()],
-            |d| radius_kpc.iter().map(|&r| d.v_squared_kms2(r).sqrt()).collect(),
+            |d| {
+                radius_kpc
+                    .iter()
+                    .map(|&r| d.v_squared_kms2(r).sqrt())
+                    .collect()
+            },
         )
     };
     GalaxyTable {
@@ -110,7 +115,11 @@ pub fn draw_from_prior(model: &GalaxyModel, rng: &mut Xoshiro256PlusPlus) -> Opt
         let mut theta = centre.clone();
         for (k, p) in model.parameters().iter().enumerate() {
             theta[k] = if p.name.starts_with("log10_upsilon") {
-                let median = if p.name.ends_with("disk") { priors.upsilon_disk_median } else { priors.upsilon_bulge_median };
+                let median = if p.name.ends_with("disk") {
+                    priors.upsilon_disk_median
+                } else {
+                    priors.upsilon_bulge_median
+                };
                 let z: f64 = StandardNormal.sample(rng);
                 median.log10() + priors.upsilon_scatter_dex * z
             } else {
@@ -123,7 +132,10 @@ pub fn draw_from_prior(model: &GalaxyModel, rng: &mut Xoshiro256PlusPlus) -> Opt
         let Ok((_, derived)) = model.evaluate(&theta) else {
             continue;
         };
-        let (m200, c200) = (derived[Derived::M200 as usize], derived[Derived::C200 as usize]);
+        let (m200, c200) = (
+            derived[Derived::M200 as usize],
+            derived[Derived::C200 as usize],
+        );
         let weight = if priors.concentration_mass {
             if !(m200 > 0.0 && c200 > 0.0) {
                 continue;
@@ -140,11 +152,31 @@ pub fn draw_from_prior(model: &GalaxyModel, rng: &mut Xoshiro256PlusPlus) -> Opt
     None
 }
 
-/// One mock: draw, simulate, fit; returns per-parameter (truth, 68% hit, 95% hit, rank).
-fn one_mock(index: usize, seed: u64, config: &FitConfig) -> Result<(Vec<(bool, bool, usize)>, bool), InferError> {
+/// Where one true value fell in its posterior.
+#[derive(Debug, Clone, Copy)]
+struct TruthPlacement {
+    inside_68: bool,
+    inside_95: bool,
+    rank: usize,
+}
+
+/// One fitted mock: a placement per parameter, and whether its chain converged.
+struct MockOutcome {
+    placements: Vec<TruthPlacement>,
+    converged: bool,
+}
+
+/// One mock: draw, simulate, fit, place each truth in its posterior.
+fn one_mock(index: usize, seed: u64, config: &FitConfig) -> Result<MockOutcome, InferError> {
     let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed.wrapping_add(index as u64 * 0x9E37_79B9));
     let mut table = template();
-    let model = GalaxyModel::new(&table, HaloModel::Sidm, config.priors, config.cosmology, config.age_gyr)?;
+    let model = GalaxyModel::new(
+        &table,
+        HaloModel::Sidm,
+        config.priors,
+        config.cosmology,
+        config.age_gyr,
+    )?;
     let truth = draw_from_prior(&model, &mut rng)
         .ok_or_else(|| InferError::NoValidStart("no prior draw with a valid SIDM model".into()))?;
     let (evaluation, _) = model.evaluate(&truth)?;
@@ -162,37 +194,65 @@ fn one_mock(index: usize, seed: u64, config: &FitConfig) -> Result<(Vec<(bool, b
     let kept: Vec<(usize, usize)> = result.chain.kept(result.burn_in, result.thin).collect();
     let mut outcome = Vec::new();
     for (p, &true_value) in truth.iter().enumerate().take(model.dim()) {
-        let mut samples: Vec<f64> = kept.iter().map(|&(s, w)| result.chain.position(s, w, p)).collect();
+        let mut samples: Vec<f64> = kept
+            .iter()
+            .map(|&(s, w)| result.chain.position(s, w, p))
+            .collect();
         samples.sort_by(f64::total_cmp);
-        let inside = |lo: f64, hi: f64| true_value >= quantile(&samples, lo) && true_value <= quantile(&samples, hi);
+        let inside = |lo: f64, hi: f64| {
+            true_value >= quantile(&samples, lo) && true_value <= quantile(&samples, hi)
+        };
         let rank = (0..RANK_DRAWS)
             .filter(|&k| quantile(&samples, (k as f64 + 0.5) / RANK_DRAWS as f64) < true_value)
             .count();
-        outcome.push((inside(0.16, 0.84), inside(0.025, 0.975), rank));
+        outcome.push(TruthPlacement {
+            inside_68: inside(0.16, 0.84),
+            inside_95: inside(0.025, 0.975),
+            rank,
+        });
     }
-    Ok((outcome, result.summary.converged))
+    Ok(MockOutcome {
+        placements: outcome,
+        converged: result.summary.converged,
+    })
 }
 
 /// Runs `n_mocks` calibration mocks in parallel (deterministic for a seed).
-pub fn coverage_run(n_mocks: usize, seed: u64, config: &FitConfig) -> Result<CoverageReport, InferError> {
-    let model = GalaxyModel::new(&template(), HaloModel::Sidm, config.priors, config.cosmology, config.age_gyr)?;
+pub fn coverage_run(
+    n_mocks: usize,
+    seed: u64,
+    config: &FitConfig,
+) -> Result<CoverageReport, InferError> {
+    let model = GalaxyModel::new(
+        &template(),
+        HaloModel::Sidm,
+        config.priors,
+        config.cosmology,
+        config.age_gyr,
+    )?;
     let names: Vec<String> = model.parameters().iter().map(|p| p.name.clone()).collect();
-    let results: Vec<Result<(Vec<(bool, bool, usize)>, bool), InferError>> =
-        (0..n_mocks).into_par_iter().map(|i| one_mock(i, seed, config)).collect();
-    let fitted: Vec<&(Vec<(bool, bool, usize)>, bool)> = results.iter().filter_map(|r| r.as_ref().ok()).collect();
+    let results: Vec<Result<MockOutcome, InferError>> = (0..n_mocks)
+        .into_par_iter()
+        .map(|i| one_mock(i, seed, config))
+        .collect();
+    let fitted: Vec<&MockOutcome> = results.iter().filter_map(|r| r.as_ref().ok()).collect();
     let parameters = names
         .iter()
         .enumerate()
         .map(|(p, name)| {
             let n = fitted.len();
-            let inside_68 = fitted.iter().filter(|(o, _)| o[p].0).count();
-            let inside_95 = fitted.iter().filter(|(o, _)| o[p].1).count();
+            let inside_68 = fitted.iter().filter(|m| m.placements[p].inside_68).count();
+            let inside_95 = fitted.iter().filter(|m| m.placements[p].inside_95).count();
             let mut rank_histogram = vec![0usize; RANK_BINS];
-            for (o, _) in &fitted {
-                rank_histogram[(o[p].2 * RANK_BINS / (RANK_DRAWS + 1)).min(RANK_BINS - 1)] += 1;
+            for m in &fitted {
+                rank_histogram
+                    [(m.placements[p].rank * RANK_BINS / (RANK_DRAWS + 1)).min(RANK_BINS - 1)] += 1;
             }
             let expected = n as f64 / RANK_BINS as f64;
-            let rank_chi2 = rank_histogram.iter().map(|&c| (c as f64 - expected).powi(2) / expected).sum();
+            let rank_chi2 = rank_histogram
+                .iter()
+                .map(|&c| (c as f64 - expected).powi(2) / expected)
+                .sum();
             ParameterCoverage {
                 name: name.clone(),
                 n,
@@ -208,7 +268,7 @@ pub fn coverage_run(n_mocks: usize, seed: u64, config: &FitConfig) -> Result<Cov
     Ok(CoverageReport {
         n_mocks,
         n_fitted: fitted.len(),
-        n_unconverged: fitted.iter().filter(|(_, converged)| !converged).count(),
+        n_unconverged: fitted.iter().filter(|m| !m.converged).count(),
         seed,
         parameters,
     })
