@@ -3,19 +3,15 @@
 //!
 //! Versioning: [`SESSION_VERSION`] is the format written now. Fields added later within a version
 //! carry `#[serde(default)]`, so older files of the same version still load. A future format
-//! change bumps the version and adds a `migrate_vN_to_vN+1` step in [`load_session`]'s chain; a
+//! change bumps the version and adds a `migrate_vN_to_vN+1` step in [`parse_session`]'s chain; a
 //! file from a newer Caldera is refused with a message saying so.
 
-use std::collections::BTreeMap;
-use std::path::{Path, PathBuf};
+use std::path::Path;
 
-use caldera_physics::Cosmology;
 use serde::{Deserialize, Serialize};
 
-use crate::TableFormat;
 use crate::catalogue::TABLE_EXTENSIONS;
 use crate::error::DataError;
-use crate::text::ColumnMapping;
 use crate::write::write_atomic;
 
 /// The session format this build writes.
@@ -89,45 +85,12 @@ impl Default for GalaxySettings {
     }
 }
 
-/// A saved session.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-pub struct Session {
-    pub version: u32,
-    /// The table or catalogue folder the session works on.
-    pub catalogue: Option<PathBuf>,
-    #[serde(default)]
-    pub format: Option<TableFormat>,
-    #[serde(default)]
-    pub column_mapping: ColumnMapping,
-    #[serde(default)]
-    pub cosmology: Cosmology,
-    /// Seed for every random draw the session makes (fits, mocks).
-    #[serde(default)]
-    pub seed: u64,
-    /// Per-galaxy settings, by galaxy name (sorted, so files diff cleanly).
-    #[serde(default)]
-    pub galaxies: BTreeMap<String, GalaxySettings>,
-    /// The galaxy shown last.
-    #[serde(default)]
-    pub selected: Option<String>,
-    #[serde(default)]
-    pub notes: String,
-}
-
-impl Default for Session {
-    fn default() -> Self {
-        Self {
-            version: SESSION_VERSION,
-            catalogue: None,
-            format: None,
-            column_mapping: ColumnMapping::new(),
-            cosmology: Cosmology::default(),
-            seed: 0,
-            galaxies: BTreeMap::new(),
-            selected: None,
-            notes: String::new(),
-        }
-    }
+/// A session file's content: any serde type written as a RON struct named `Session` with a
+/// `version` field. The application's session type lives in a crate that knows everything a
+/// session holds (priors, fit results); this module gives it versioning and safe storage.
+pub trait SessionFile: Serialize + for<'de> Deserialize<'de> {
+    /// The table or catalogue folder the session works on (never overwritten by a save).
+    fn catalogue(&self) -> Option<&Path>;
 }
 
 fn malformed(path: &Path, message: String) -> DataError {
@@ -138,7 +101,7 @@ fn malformed(path: &Path, message: String) -> DataError {
 }
 
 /// Reads a session file, checking its version.
-pub fn load_session(path: &Path) -> Result<Session, DataError> {
+pub fn load_session<T: SessionFile>(path: &Path) -> Result<T, DataError> {
     let text = std::fs::read_to_string(path).map_err(|source| DataError::Io {
         path: path.to_path_buf(),
         source,
@@ -146,8 +109,8 @@ pub fn load_session(path: &Path) -> Result<Session, DataError> {
     parse_session(&text, path)
 }
 
-/// Parses session text; `path` names it in messages.
-pub fn parse_session(text: &str, path: &Path) -> Result<Session, DataError> {
+/// Reads the `version` field alone; the rest of the file is interpreted by that version's rules.
+fn probe_version(text: &str, path: &Path) -> Result<u32, DataError> {
     // Read the version alone first; the rest of the file is interpreted by that version's rules.
     #[derive(Deserialize)]
     #[serde(rename = "Session")]
@@ -163,7 +126,12 @@ pub fn parse_session(text: &str, path: &Path) -> Result<Session, DataError> {
             "not a session file: no 'version' field".into(),
         ));
     }
-    let version = probe.version;
+    Ok(probe.version)
+}
+
+/// Parses session text; `path` names it in messages.
+pub fn parse_session<T: SessionFile>(text: &str, path: &Path) -> Result<T, DataError> {
+    let version = probe_version(text, path)?;
     match version {
         SESSION_VERSION => ron::from_str(text).map_err(|e| {
             malformed(
@@ -186,7 +154,7 @@ pub fn parse_session(text: &str, path: &Path) -> Result<Session, DataError> {
 
 /// Saves a session atomically. Refuses paths that look like tables or that hold a table of the
 /// session's catalogue, and refuses to replace a file that is not a session.
-pub fn save_session(path: &Path, session: &Session) -> Result<(), DataError> {
+pub fn save_session<T: SessionFile>(path: &Path, session: &T) -> Result<(), DataError> {
     let extension = path
         .extension()
         .and_then(|e| e.to_str())
@@ -200,7 +168,7 @@ pub fn save_session(path: &Path, session: &Session) -> Result<(), DataError> {
             ),
         ));
     }
-    if let Some(catalogue) = &session.catalogue
+    if let Some(catalogue) = session.catalogue()
         && same_file(path, catalogue)
     {
         return Err(malformed(
@@ -209,7 +177,7 @@ pub fn save_session(path: &Path, session: &Session) -> Result<(), DataError> {
         ));
     }
     if path.exists() {
-        load_session(path).map_err(|_| {
+        probe_version(&std::fs::read_to_string(path).unwrap_or_default(), path).map_err(|_| {
             malformed(
                 path,
                 "exists and is not a Caldera session; choose another name".into(),
@@ -232,6 +200,33 @@ fn same_file(a: &Path, b: &Path) -> bool {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::TableFormat;
+    use crate::text::ColumnMapping;
+    use caldera_physics::Cosmology;
+    use std::collections::BTreeMap;
+    use std::path::PathBuf;
+
+    /// A minimal session type for testing the storage rules.
+    #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+    #[serde(rename = "Session")]
+    struct Session {
+        version: u32,
+        catalogue: Option<PathBuf>,
+        #[serde(default)]
+        galaxies: BTreeMap<String, GalaxySettings>,
+        #[serde(default)]
+        mapping: ColumnMapping,
+        #[serde(default)]
+        format: Option<TableFormat>,
+        #[serde(default)]
+        cosmology: Cosmology,
+    }
+
+    impl SessionFile for Session {
+        fn catalogue(&self) -> Option<&Path> {
+            self.catalogue.as_deref()
+        }
+    }
 
     fn sample() -> Session {
         let mut galaxies = BTreeMap::new();
@@ -247,14 +242,12 @@ mod tests {
         let mut mapping = ColumnMapping::new();
         mapping.insert(crate::ColumnRole::VelocityObserved, "vflat".into());
         Session {
+            version: SESSION_VERSION,
             catalogue: Some(PathBuf::from("demo_galaxies")),
-            format: Some(TableFormat::Ecsv),
-            column_mapping: mapping,
-            seed: 42,
             galaxies,
-            selected: Some("Kiln D03".into()),
-            notes: "round trip".into(),
-            ..Session::default()
+            mapping,
+            format: Some(TableFormat::Ecsv),
+            cosmology: Cosmology::default(),
         }
     }
 
@@ -272,10 +265,14 @@ mod tests {
         let path = dir.join("work.ron");
         let session = sample();
         save_session(&path, &session).expect("saves");
-        assert_eq!(load_session(&path).expect("loads"), session);
+        assert_eq!(load_session::<Session>(&path).expect("loads"), session);
         // Saving again over a session is allowed.
-        save_session(&path, &Session::default()).expect("saves again");
-        assert_eq!(load_session(&path).expect("loads"), Session::default());
+        let other = Session {
+            catalogue: None,
+            ..sample()
+        };
+        save_session(&path, &other).expect("saves again");
+        assert_eq!(load_session::<Session>(&path).expect("loads"), other);
         std::fs::remove_dir_all(&dir).ok();
     }
 
@@ -308,20 +305,21 @@ mod tests {
     #[test]
     fn versions_are_checked_and_old_fields_default() {
         let path = Path::new("s.ron");
-        let newer = parse_session("(version: 7, catalogue: None)", path).expect_err("refused");
+        let newer =
+            parse_session::<Session>("(version: 7, catalogue: None)", path).expect_err("refused");
         assert!(newer.to_string().contains("newer Caldera"), "{newer}");
-        let unversioned = parse_session("(catalogue: None)", path).expect_err("refused");
+        let unversioned = parse_session::<Session>("(catalogue: None)", path).expect_err("refused");
         assert!(
             unversioned.to_string().contains("no 'version'"),
             "{unversioned}"
         );
         // A minimal version-1 file (fields added later are absent) loads with defaults.
-        let minimal =
-            parse_session("Session(version: 1, catalogue: Some(\"x\"))", path).expect("loads");
+        let minimal = parse_session::<Session>("Session(version: 1, catalogue: Some(\"x\"))", path)
+            .expect("loads");
         assert_eq!(minimal.catalogue, Some(PathBuf::from("x")));
         assert!(minimal.galaxies.is_empty());
-        let damaged =
-            parse_session("Session(version: 1, catalogue: 3)", path).expect_err("refused");
+        let damaged = parse_session::<Session>("Session(version: 1, catalogue: 3)", path)
+            .expect_err("refused");
         assert!(damaged.to_string().contains("damaged"), "{damaged}");
     }
 }

@@ -9,6 +9,7 @@ pub mod model;
 pub mod optimize;
 pub mod priors;
 pub mod sampler;
+pub mod session;
 pub mod summary;
 
 pub use error::InferError;
