@@ -36,7 +36,7 @@ pub use columns::ColumnRole;
 pub use error::{DataError, Location};
 pub use table::{GalaxyMeta, GalaxyTable, TableWarning};
 pub use text::ColumnMapping;
-pub use write::{MetaValue, OutputColumn, OutputTable, write_atomic};
+pub use write::{ColumnValues, MetaValue, OutputColumn, OutputTable, write_atomic};
 
 /// The table formats Caldera reads.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]

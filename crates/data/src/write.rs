@@ -8,12 +8,51 @@ use std::path::{Path, PathBuf};
 use crate::error::DataError;
 use crate::table::GalaxyTable;
 
-/// A named column of numbers with its unit (an astropy unit string, e.g. `"km / s"`).
+/// A named column with its unit (an astropy unit string, e.g. `"km / s"`).
 #[derive(Debug, Clone, PartialEq)]
 pub struct OutputColumn {
     pub name: String,
     pub unit: Option<String>,
-    pub values: Vec<f64>,
+    pub values: ColumnValues,
+}
+
+/// The cells of a column.
+#[derive(Debug, Clone, PartialEq)]
+pub enum ColumnValues {
+    Numbers(Vec<f64>),
+    Text(Vec<String>),
+    Flags(Vec<bool>),
+}
+
+impl ColumnValues {
+    fn len(&self) -> usize {
+        match self {
+            Self::Numbers(v) => v.len(),
+            Self::Text(v) => v.len(),
+            Self::Flags(v) => v.len(),
+        }
+    }
+
+    fn datatype(&self) -> &'static str {
+        match self {
+            Self::Numbers(_) => "float64",
+            Self::Text(_) => "string",
+            Self::Flags(_) => "bool",
+        }
+    }
+
+    /// Cell `row` as text: numbers in their shortest round-trip form; text quoted when `quote`
+    /// says it must be; flags as astropy writes them in ECSV (`True`/`False`).
+    fn cell(&self, row: usize, quote: &dyn Fn(&str) -> bool) -> String {
+        match self {
+            Self::Numbers(v) => format_number(v[row]),
+            Self::Flags(v) => if v[row] { "True" } else { "False" }.to_string(),
+            Self::Text(v) => {
+                let t = &v[row];
+                if quote(t) { format!("\"{}\"", t.replace('"', "\"\"")) } else { t.clone() }
+            }
+        }
+    }
 }
 
 /// A table to write: columns of equal length plus ordered metadata.
@@ -31,13 +70,35 @@ pub enum MetaValue {
 }
 
 impl OutputTable {
-    /// Adds a column.
+    /// Adds a column of numbers.
     #[must_use]
     pub fn with_column(mut self, name: &str, unit: Option<&str>, values: Vec<f64>) -> Self {
         self.columns.push(OutputColumn {
             name: name.to_string(),
             unit: unit.map(str::to_string),
-            values,
+            values: ColumnValues::Numbers(values),
+        });
+        self
+    }
+
+    /// Adds a column of text.
+    #[must_use]
+    pub fn with_text_column(mut self, name: &str, values: Vec<String>) -> Self {
+        self.columns.push(OutputColumn {
+            name: name.to_string(),
+            unit: None,
+            values: ColumnValues::Text(values),
+        });
+        self
+    }
+
+    /// Adds a column of true/false flags.
+    #[must_use]
+    pub fn with_flag_column(mut self, name: &str, values: Vec<bool>) -> Self {
+        self.columns.push(OutputColumn {
+            name: name.to_string(),
+            unit: None,
+            values: ColumnValues::Flags(values),
         });
         self
     }
@@ -90,20 +151,22 @@ impl OutputTable {
         Ok(out)
     }
 
-    /// The table as ECSV 1.0 text (space-delimited, float64 columns).
+    /// The table as ECSV 1.0 text (space-delimited; float64, string and bool columns).
     pub fn to_ecsv(&self, path: &Path) -> Result<String, DataError> {
         self.check(path)?;
         let mut out = String::from("# %ECSV 1.0\n# ---\n# datatype:\n");
         for column in &self.columns {
             match &column.unit {
                 Some(unit) => out.push_str(&format!(
-                    "# - {{name: {}, unit: {}, datatype: float64}}\n",
+                    "# - {{name: {}, unit: {}, datatype: {}}}\n",
                     column.name,
-                    yaml_string(unit)
+                    yaml_string(unit),
+                    column.values.datatype()
                 )),
                 None => out.push_str(&format!(
-                    "# - {{name: {}, datatype: float64}}\n",
-                    column.name
+                    "# - {{name: {}, datatype: {}}}\n",
+                    column.name,
+                    column.values.datatype()
                 )),
             }
         }
@@ -126,12 +189,10 @@ impl OutputTable {
     }
 
     fn push_rows(&self, out: &mut String, separator: &str) {
+        // Quote text containing the separator, a quote, or (space-separated) nothing at all.
+        let quote = |t: &str| t.is_empty() || t.contains(separator) || t.contains('"') || t.contains(',');
         for row in 0..self.rows() {
-            let cells: Vec<String> = self
-                .columns
-                .iter()
-                .map(|c| format_number(c.values[row]))
-                .collect();
+            let cells: Vec<String> = self.columns.iter().map(|c| c.values.cell(row, &quote)).collect();
             out.push_str(&cells.join(separator));
             out.push('\n');
         }

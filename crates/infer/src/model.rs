@@ -416,6 +416,55 @@ impl GalaxyModel {
                 (None, Some((i, _))) => i,
                 _ => f64::NAN,
             };
+        let halo = self.build_halo(theta, distance_factor, &v_baryon2_kms2, &mut derived)?;
+        let floor2 = self.priors.error_floor_kms * self.priors.error_floor_kms;
+        let mut chi2 = 0.0;
+        let mut log_norm = 0.0;
+        let mut v_obs_kms = Vec::with_capacity(n);
+        let mut v_err_kms = Vec::with_capacity(n);
+        let mut v_model_kms = Vec::with_capacity(n);
+        let mut v_halo_kms = Vec::with_capacity(n);
+        for i in 0..n {
+            let v_halo = halo.v_circ_kms(radius_kpc[i]);
+            let v_model = (v_halo * v_halo + v_baryon2_kms2[i]).max(0.0).sqrt();
+            let v_obs = self.v_obs_kms[i] * inclination_factor;
+            let scaled_err = self.v_err_kms[i] * inclination_factor;
+            let err = (scaled_err * scaled_err + floor2).sqrt();
+            chi2 += ((v_obs - v_model) / err).powi(2);
+            log_norm += err.ln();
+            v_obs_kms.push(v_obs);
+            v_err_kms.push(err);
+            v_model_kms.push(v_model);
+            v_halo_kms.push(v_halo);
+        }
+        let log_likelihood =
+            -0.5 * chi2 - log_norm - 0.5 * n as f64 * (2.0 * std::f64::consts::PI).ln();
+        derived[Derived::Chi2 as usize] = chi2;
+        derived[Derived::LogLikelihood as usize] = log_likelihood;
+        Ok((
+            Evaluation {
+                radius_kpc,
+                v_obs_kms,
+                v_err_kms,
+                v_model_kms,
+                v_halo_kms,
+                v_baryon2_kms2,
+                log_likelihood,
+                chi2,
+            },
+            derived,
+        ))
+    }
+
+    /// Builds the halo at `theta` for data rescaled by `distance_factor` (with baryonic V² per
+    /// row `v_baryon2_kms2`), filling the halo's derived quantities into `derived`.
+    fn build_halo(
+        &self,
+        theta: &[f64],
+        distance_factor: f64,
+        v_baryon2_kms2: &[f64],
+        derived: &mut [f64; DERIVED_NAMES.len()],
+    ) -> Result<Box<dyn HaloProfile>, PhysicsError> {
         let h = self.layout.halo;
         let p = |k: usize| self.parameters[h + k].physical(theta[h + k]);
         let halo: Box<dyn HaloProfile> = match self.model {
@@ -479,43 +528,7 @@ impl GalaxyModel {
                 Box::new(iso)
             }
         };
-        let floor2 = self.priors.error_floor_kms * self.priors.error_floor_kms;
-        let mut chi2 = 0.0;
-        let mut log_norm = 0.0;
-        let mut v_obs_kms = Vec::with_capacity(n);
-        let mut v_err_kms = Vec::with_capacity(n);
-        let mut v_model_kms = Vec::with_capacity(n);
-        let mut v_halo_kms = Vec::with_capacity(n);
-        for i in 0..n {
-            let v_halo = halo.v_circ_kms(radius_kpc[i]);
-            let v_model = (v_halo * v_halo + v_baryon2_kms2[i]).max(0.0).sqrt();
-            let v_obs = self.v_obs_kms[i] * inclination_factor;
-            let scaled_err = self.v_err_kms[i] * inclination_factor;
-            let err = (scaled_err * scaled_err + floor2).sqrt();
-            chi2 += ((v_obs - v_model) / err).powi(2);
-            log_norm += err.ln();
-            v_obs_kms.push(v_obs);
-            v_err_kms.push(err);
-            v_model_kms.push(v_model);
-            v_halo_kms.push(v_halo);
-        }
-        let log_likelihood =
-            -0.5 * chi2 - log_norm - 0.5 * n as f64 * (2.0 * std::f64::consts::PI).ln();
-        derived[Derived::Chi2 as usize] = chi2;
-        derived[Derived::LogLikelihood as usize] = log_likelihood;
-        Ok((
-            Evaluation {
-                radius_kpc,
-                v_obs_kms,
-                v_err_kms,
-                v_model_kms,
-                v_halo_kms,
-                v_baryon2_kms2,
-                log_likelihood,
-                chi2,
-            },
-            derived,
-        ))
+        Ok(halo)
     }
 
     /// ln prior of the nuisances and the concentration–mass relation (the halo parameters'
@@ -546,6 +559,82 @@ impl GalaxyModel {
             lp += ln_normal(c200.log10(), mu, self.priors.concentration_scatter_dex);
         }
         lp
+    }
+}
+
+/// The model's pieces for a figure: data and baryonic components at the (rescaled) data radii,
+/// and the halo and total curves on a fine grid.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Components {
+    pub radius_kpc: Vec<f64>,
+    pub v_obs_kms: Vec<f64>,
+    pub v_err_kms: Vec<f64>,
+    /// Signed velocities: V|V| = the component's contribution to V².
+    pub v_gas_kms: Vec<f64>,
+    pub v_disk_kms: Vec<f64>,
+    pub v_bulge_kms: Option<Vec<f64>>,
+    pub v_model_kms: Vec<f64>,
+    pub fine_radius_kpc: Vec<f64>,
+    pub v_halo_fine_kms: Vec<f64>,
+    pub v_total_fine_kms: Vec<f64>,
+    pub r1_kpc: Option<f64>,
+    pub core_radius_kpc: Option<f64>,
+}
+
+fn signed_root(v2: f64) -> f64 {
+    v2.signum() * v2.abs().sqrt()
+}
+
+impl GalaxyModel {
+    /// The pieces of the model at `theta` for plotting (see [`Components`]).
+    pub fn components(&self, theta: &[f64]) -> Result<Components, PhysicsError> {
+        let (evaluation, derived) = self.evaluate(theta)?;
+        let (upsilon_disk, upsilon_bulge, distance_factor, _) = self.nuisances(theta);
+        let mut scratch = derived;
+        let halo = self.build_halo(theta, distance_factor, &evaluation.v_baryon2_kms2, &mut scratch)?;
+        let n = self.n_points();
+        let scaled = |v2: &[f64], factor: f64| -> Vec<f64> {
+            v2.iter().map(|x| signed_root(distance_factor * factor * x)).collect()
+        };
+        let r_max = evaluation.radius_kpc.iter().copied().fold(0.0, f64::max) * 1.05;
+        let fine_radius_kpc: Vec<f64> = (1..=200).map(|i| r_max * f64::from(i) / 200.0).collect();
+        // Signed r·V_b² at the data radii, interpolated linearly between them (the table's
+        // enclosed-mass rule: ∝ r³ inside the first radius, constant beyond the last).
+        let radii = &evaluation.radius_kpc;
+        let m: Vec<f64> = radii.iter().zip(&evaluation.v_baryon2_kms2).map(|(r, v2)| r * v2).collect();
+        let baryon_mass = |r: f64| -> f64 {
+            if r <= radii[0] {
+                return m[0] * (r / radii[0]).powi(3);
+            }
+            if r >= radii[n - 1] {
+                return m[n - 1];
+            }
+            let upper = radii.partition_point(|&x| x < r);
+            let lower = upper - 1;
+            let w = (r - radii[lower]) / (radii[upper] - radii[lower]).max(f64::MIN_POSITIVE);
+            m[lower] + w * (m[upper] - m[lower])
+        };
+        let v_halo_fine_kms: Vec<f64> = fine_radius_kpc.iter().map(|&r| halo.v_circ_kms(r)).collect();
+        let v_total_fine_kms = fine_radius_kpc
+            .iter()
+            .zip(&v_halo_fine_kms)
+            .map(|(&r, vh)| (vh * vh + baryon_mass(r) / r).max(0.0).sqrt())
+            .collect();
+        let finite = |x: f64| x.is_finite().then_some(x);
+        Ok(Components {
+            v_gas_kms: scaled(&self.gas2, 1.0),
+            v_disk_kms: scaled(&self.disk2, upsilon_disk),
+            v_bulge_kms: self.layout.upsilon_bulge.map(|_| scaled(&self.bulge2, upsilon_bulge)),
+            radius_kpc: evaluation.radius_kpc,
+            v_obs_kms: evaluation.v_obs_kms,
+            v_err_kms: evaluation.v_err_kms,
+            v_model_kms: evaluation.v_model_kms,
+            fine_radius_kpc,
+            v_halo_fine_kms,
+            v_total_fine_kms,
+            r1_kpc: finite(derived[Derived::R1 as usize]),
+            core_radius_kpc: finite(derived[Derived::CoreRadius as usize]),
+        })
     }
 }
 
