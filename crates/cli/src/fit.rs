@@ -14,13 +14,16 @@ use caldera_physics::Cosmology;
 use clap::{Args, ValueEnum};
 
 use crate::Verbosity;
+use crate::batch::BatchArgs;
 use crate::options::TableOptions;
 
 pub(crate) const EXAMPLES: &str = "\
 Examples:
   caldera fit demo_galaxies/kiln_d03.ecsv --model sidm
   caldera fit galaxy.csv --model nfw --json --seed 7
-  caldera fit galaxy.csv --model sidm --sigma-prior linear --sigma-max 20 --chain chain.csv";
+  caldera fit galaxy.csv --model sidm --sigma-prior linear --sigma-max 20 --chain chain.csv
+  caldera fit demo_galaxies --models sidm,nfw --out results/
+  caldera fit demo_galaxies --models sidm,nfw,burkert --out shards/3 --shard 3/8";
 
 /// How σ/m is sampled.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
@@ -34,12 +37,18 @@ pub enum SigmaScale {
 /// Arguments of `caldera fit`.
 #[derive(Debug, Args)]
 pub struct FitArgs {
-    /// A galaxy table.
+    /// A galaxy table, or a catalogue folder (then --out is needed).
     pub path: PathBuf,
-    /// Halo model: sidm, nfw, burkert or pseudo-iso.
-    #[arg(long, default_value = "sidm", value_name = "MODEL")]
-    pub model: String,
-    /// Print the summary as one JSON object.
+    /// Halo models, comma-separated: sidm, nfw, burkert, pseudo-iso.
+    #[arg(
+        long,
+        alias = "model",
+        value_delimiter = ',',
+        default_value = "sidm",
+        value_name = "MODEL,..."
+    )]
+    pub models: Vec<String>,
+    /// Print the summary as one JSON object (one table, one model).
     #[arg(long)]
     pub json: bool,
     /// Random seed (the same seed gives the same chain).
@@ -52,6 +61,8 @@ pub struct FitArgs {
     pub settings: FitSettings,
     #[command(flatten)]
     pub table: TableOptions,
+    #[command(flatten)]
+    pub batch: BatchArgs,
 }
 
 /// Priors and sampler settings shared by single and catalogue fits.
@@ -142,11 +153,38 @@ pub(crate) fn parse_model(name: &str) -> anyhow::Result<HaloModel> {
     })
 }
 
-/// Runs `caldera fit` on one table.
+/// Runs `caldera fit`: one table and model printed, or a catalogue run into --out.
 pub(crate) fn run(args: &FitArgs, verbosity: Verbosity) -> anyhow::Result<ExitCode> {
-    let model = parse_model(&args.model)?;
+    let mut models = Vec::new();
+    for name in &args.models {
+        let model = parse_model(name)?;
+        if !models.contains(&model) {
+            models.push(model);
+        }
+    }
     let config = args.settings.config(args.seed)?;
-    let table = read_table(&args.path, &args.table.read_options()?)?;
+    let read = args.table.read_options()?;
+    if let Some(out) = &args.batch.out {
+        return crate::batch::run(
+            &args.path,
+            &models,
+            &config,
+            &read,
+            &args.batch,
+            out,
+            verbosity,
+        );
+    }
+    if args.path.is_dir() {
+        bail!(
+            "{} is a folder: give --out DIR for a catalogue run",
+            args.path.display()
+        );
+    }
+    let [model] = models[..] else {
+        bail!("several models need a catalogue run: give --out DIR");
+    };
+    let table = read_table(&args.path, &read)?;
     if verbosity != Verbosity::Quiet {
         for w in &table.warnings {
             eprintln!("warning: {w}");

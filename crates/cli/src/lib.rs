@@ -3,6 +3,7 @@
 //! Exit codes: 0 success, 1 failure (the reason is printed once on standard error), 2 usage
 //! error (printed by the argument parser).
 
+mod batch;
 mod calibrate;
 mod check;
 mod curve;
@@ -15,6 +16,7 @@ use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
 
+pub use batch::{BatchArgs, MergeArgs};
 pub use calibrate::CalibrateArgs;
 pub use check::CheckArgs;
 pub use curve::CurveArgs;
@@ -47,6 +49,9 @@ pub enum Command {
     /// Fit a halo model to a galaxy's rotation curve (posterior of σ/m and the halo).
     #[command(after_help = fit::EXAMPLES)]
     Fit(Box<FitArgs>),
+    /// Join the output folders of sharded catalogue runs into one.
+    #[command(after_help = batch::MERGE_EXAMPLES)]
+    Merge(MergeArgs),
     /// Check that the SIDM fit's intervals are calibrated, on mocks drawn from its prior.
     #[command(after_help = calibrate::EXAMPLES)]
     Calibrate(CalibrateArgs),
@@ -85,5 +90,6 @@ pub fn run(cli: &Cli) -> anyhow::Result<ExitCode> {
         Command::Mock(args) => mock::run(args, cli.verbosity()),
         Command::Fit(args) => fit::run(args, cli.verbosity()),
         Command::Calibrate(args) => calibrate::run(args, cli.verbosity()),
+        Command::Merge(args) => batch::merge(args, cli.verbosity()),
     }
 }

@@ -49,7 +49,11 @@ impl ColumnValues {
             Self::Flags(v) => if v[row] { "True" } else { "False" }.to_string(),
             Self::Text(v) => {
                 let t = &v[row];
-                if quote(t) { format!("\"{}\"", t.replace('"', "\"\"")) } else { t.clone() }
+                if quote(t) {
+                    format!("\"{}\"", t.replace('"', "\"\""))
+                } else {
+                    t.clone()
+                }
             }
         }
     }
@@ -190,9 +194,14 @@ impl OutputTable {
 
     fn push_rows(&self, out: &mut String, separator: &str) {
         // Quote text containing the separator, a quote, or (space-separated) nothing at all.
-        let quote = |t: &str| t.is_empty() || t.contains(separator) || t.contains('"') || t.contains(',');
+        let quote =
+            |t: &str| t.is_empty() || t.contains(separator) || t.contains('"') || t.contains(',');
         for row in 0..self.rows() {
-            let cells: Vec<String> = self.columns.iter().map(|c| c.values.cell(row, &quote)).collect();
+            let cells: Vec<String> = self
+                .columns
+                .iter()
+                .map(|c| c.values.cell(row, &quote))
+                .collect();
             out.push_str(&cells.join(separator));
             out.push('\n');
         }

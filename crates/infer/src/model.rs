@@ -591,17 +591,28 @@ impl GalaxyModel {
         let (evaluation, derived) = self.evaluate(theta)?;
         let (upsilon_disk, upsilon_bulge, distance_factor, _) = self.nuisances(theta);
         let mut scratch = derived;
-        let halo = self.build_halo(theta, distance_factor, &evaluation.v_baryon2_kms2, &mut scratch)?;
+        let halo = self.build_halo(
+            theta,
+            distance_factor,
+            &evaluation.v_baryon2_kms2,
+            &mut scratch,
+        )?;
         let n = self.n_points();
         let scaled = |v2: &[f64], factor: f64| -> Vec<f64> {
-            v2.iter().map(|x| signed_root(distance_factor * factor * x)).collect()
+            v2.iter()
+                .map(|x| signed_root(distance_factor * factor * x))
+                .collect()
         };
         let r_max = evaluation.radius_kpc.iter().copied().fold(0.0, f64::max) * 1.05;
         let fine_radius_kpc: Vec<f64> = (1..=200).map(|i| r_max * f64::from(i) / 200.0).collect();
         // Signed r·V_b² at the data radii, interpolated linearly between them (the table's
         // enclosed-mass rule: ∝ r³ inside the first radius, constant beyond the last).
         let radii = &evaluation.radius_kpc;
-        let m: Vec<f64> = radii.iter().zip(&evaluation.v_baryon2_kms2).map(|(r, v2)| r * v2).collect();
+        let m: Vec<f64> = radii
+            .iter()
+            .zip(&evaluation.v_baryon2_kms2)
+            .map(|(r, v2)| r * v2)
+            .collect();
         let baryon_mass = |r: f64| -> f64 {
             if r <= radii[0] {
                 return m[0] * (r / radii[0]).powi(3);
@@ -614,7 +625,10 @@ impl GalaxyModel {
             let w = (r - radii[lower]) / (radii[upper] - radii[lower]).max(f64::MIN_POSITIVE);
             m[lower] + w * (m[upper] - m[lower])
         };
-        let v_halo_fine_kms: Vec<f64> = fine_radius_kpc.iter().map(|&r| halo.v_circ_kms(r)).collect();
+        let v_halo_fine_kms: Vec<f64> = fine_radius_kpc
+            .iter()
+            .map(|&r| halo.v_circ_kms(r))
+            .collect();
         let v_total_fine_kms = fine_radius_kpc
             .iter()
             .zip(&v_halo_fine_kms)
@@ -624,7 +638,10 @@ impl GalaxyModel {
         Ok(Components {
             v_gas_kms: scaled(&self.gas2, 1.0),
             v_disk_kms: scaled(&self.disk2, upsilon_disk),
-            v_bulge_kms: self.layout.upsilon_bulge.map(|_| scaled(&self.bulge2, upsilon_bulge)),
+            v_bulge_kms: self
+                .layout
+                .upsilon_bulge
+                .map(|_| scaled(&self.bulge2, upsilon_bulge)),
             radius_kpc: evaluation.radius_kpc,
             v_obs_kms: evaluation.v_obs_kms,
             v_err_kms: evaluation.v_err_kms,

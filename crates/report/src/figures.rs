@@ -12,7 +12,11 @@ use crate::theme;
 
 /// A figure that can draw itself on any plotters backend.
 pub trait Figure {
-    /// Draws on `root` (already sized to [`theme::SIZE`]).
+    /// Size in pixels.
+    fn size(&self) -> (u32, u32) {
+        theme::SIZE
+    }
+    /// Draws on `root` (already sized to [`Figure::size`]).
     fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> Result<(), ReportError>;
 }
 
@@ -32,17 +36,20 @@ pub fn save_figure(figure: &impl Figure, path: &Path) -> Result<(), ReportError>
         "svg" => {
             let mut text = String::new();
             {
-                let root = SVGBackend::with_string(&mut text, theme::SIZE).into_drawing_area();
+                let root = SVGBackend::with_string(&mut text, figure.size()).into_drawing_area();
                 figure.draw(&root)?;
                 root.present().map_err(draw_error)?;
             }
             caldera_data::write_atomic(path, text.as_bytes())?;
         }
         "png" => {
-            let stem = path.file_stem().map_or_else(|| "figure".into(), |s| s.to_string_lossy().into_owned());
-            let temporary = path.with_file_name(format!(".{stem}.{}.partial.png", std::process::id()));
+            let stem = path
+                .file_stem()
+                .map_or_else(|| "figure".into(), |s| s.to_string_lossy().into_owned());
+            let temporary =
+                path.with_file_name(format!(".{stem}.{}.partial.png", std::process::id()));
             {
-                let root = BitMapBackend::new(&temporary, theme::SIZE).into_drawing_area();
+                let root = BitMapBackend::new(&temporary, figure.size()).into_drawing_area();
                 figure.draw(&root)?;
                 root.present().map_err(draw_error)?;
             }
@@ -116,24 +123,43 @@ impl Figure for RotationCurveFigure {
         };
         let mut series: Vec<(&str, RGBColor, Vec<(f64, f64)>, u32)> = vec![
             ("gas", theme::GAS, line(&c.v_gas_kms, &c.radius_kpc), 2),
-            ("stellar disk", theme::DISK, line(&c.v_disk_kms, &c.radius_kpc), 2),
+            (
+                "stellar disk",
+                theme::DISK,
+                line(&c.v_disk_kms, &c.radius_kpc),
+                2,
+            ),
         ];
         if let Some(bulge) = &c.v_bulge_kms {
             series.push(("bulge", theme::BULGE, line(bulge, &c.radius_kpc), 2));
         }
-        series.push(("dark halo", theme::HALO, line(&c.v_halo_fine_kms, &c.fine_radius_kpc), 3));
-        series.push(("total", theme::TOTAL, line(&c.v_total_fine_kms, &c.fine_radius_kpc), 4));
+        series.push((
+            "dark halo",
+            theme::HALO,
+            line(&c.v_halo_fine_kms, &c.fine_radius_kpc),
+            3,
+        ));
+        series.push((
+            "total",
+            theme::TOTAL,
+            line(&c.v_total_fine_kms, &c.fine_radius_kpc),
+            4,
+        ));
         for (name, colour, points, width) in series {
             chart
                 .draw_series(LineSeries::new(points, colour.stroke_width(width)))
                 .map_err(draw_error)?
                 .label(name)
-                .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 24, y)], colour.stroke_width(width)));
+                .legend(move |(x, y)| {
+                    PathElement::new(vec![(x, y), (x + 24, y)], colour.stroke_width(width))
+                });
         }
         chart
-            .draw_series(c.radius_kpc.iter().zip(&c.v_obs_kms).zip(&c.v_err_kms).map(|((&r, &v), &e)| {
-                ErrorBar::new_vertical(r, v - e, v, v + e, theme::DATA.stroke_width(2), 8)
-            }))
+            .draw_series(c.radius_kpc.iter().zip(&c.v_obs_kms).zip(&c.v_err_kms).map(
+                |((&r, &v), &e)| {
+                    ErrorBar::new_vertical(r, v - e, v, v + e, theme::DATA.stroke_width(2), 8)
+                },
+            ))
             .map_err(draw_error)?;
         chart
             .draw_series(
@@ -146,7 +172,9 @@ impl Figure for RotationCurveFigure {
             .label("observed")
             .legend(|(x, y)| Circle::new((x + 12, y), 5, theme::DATA.filled()));
         for (name, radius) in [("r1", c.r1_kpc), ("r_core", c.core_radius_kpc)] {
-            let Some(r) = radius.filter(|r| *r < r_max) else { continue };
+            let Some(r) = radius.filter(|r| *r < r_max) else {
+                continue;
+            };
             chart
                 .draw_series(std::iter::once(PathElement::new(
                     vec![(r, v_bottom), (r, v_top * 0.93)],
@@ -154,7 +182,11 @@ impl Figure for RotationCurveFigure {
                 )))
                 .map_err(draw_error)?;
             chart
-                .draw_series(std::iter::once(Text::new(name.to_string(), (r, v_top * 0.97), font(theme::TICK_SIZE))))
+                .draw_series(std::iter::once(Text::new(
+                    name.to_string(),
+                    (r, v_top * 0.97),
+                    font(theme::TICK_SIZE),
+                )))
                 .map_err(draw_error)?;
         }
         chart
@@ -191,10 +223,17 @@ impl Figure for RotationCurveFigure {
             .draw()
             .map_err(draw_error)?;
         lower_chart
-            .draw_series(LineSeries::new(vec![(0.0, 0.0), (r_max, 0.0)], theme::MARKER.stroke_width(1)))
+            .draw_series(LineSeries::new(
+                vec![(0.0, 0.0), (r_max, 0.0)],
+                theme::MARKER.stroke_width(1),
+            ))
             .map_err(draw_error)?;
         lower_chart
-            .draw_series(residuals.iter().map(|&p| Circle::new(p, 5, theme::DATA.filled())))
+            .draw_series(
+                residuals
+                    .iter()
+                    .map(|&p| Circle::new(p, 5, theme::DATA.filled())),
+            )
             .map_err(draw_error)?;
         Ok(())
     }
@@ -213,10 +252,37 @@ pub struct CornerFigure {
 /// Samples drawn in each scatter panel, at most.
 const CORNER_POINTS: usize = 2500;
 
+/// A short axis label for a sampled parameter's name (falls back to the name).
+#[must_use]
+pub fn short_label(name: &str) -> String {
+    match name {
+        "log10_rho0_msun_kpc3" => "log ρ0 [Msun/kpc³]".into(),
+        "log10_sigma0_kms" => "log σ0 [km/s]".into(),
+        "log10_sigma_m_cm2_g" => "log σ/m [cm²/g]".into(),
+        "sigma_m_cm2_g" => "σ/m [cm²/g]".into(),
+        "log10_v200_kms" => "log V200 [km/s]".into(),
+        "log10_c200" => "log c200".into(),
+        "log10_r0_kpc" => "log r0 [kpc]".into(),
+        "log10_rc_kpc" => "log r_c [kpc]".into(),
+        "log10_upsilon_disk" => "log Υ_disk".into(),
+        "log10_upsilon_bulge" => "log Υ_bulge".into(),
+        "distance_mpc" => "D [Mpc]".into(),
+        "inclination_deg" => "i [deg]".into(),
+        other => other.into(),
+    }
+}
+
 impl Figure for CornerFigure {
+    fn size(&self) -> (u32, u32) {
+        let side = (180 * self.columns.len() as u32).clamp(600, 1400);
+        (side, side)
+    }
+
     fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> Result<(), ReportError> {
         root.fill(&WHITE).map_err(draw_error)?;
-        let root = root.titled(&self.title, font(theme::TITLE_SIZE)).map_err(draw_error)?;
+        let root = root
+            .titled(&self.title, font(theme::TITLE_SIZE))
+            .map_err(draw_error)?;
         let n = self.columns.len();
         if n == 0 {
             return Ok(());
@@ -225,12 +291,21 @@ impl Figure for CornerFigure {
             .columns
             .iter()
             .map(|c| {
-                let (lo, hi) = c.iter().filter(|v| v.is_finite()).fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &v| (a.min(v), b.max(v)));
-                if lo < hi { (lo, hi) } else { (lo - 0.5, lo + 0.5) }
+                let (lo, hi) = c
+                    .iter()
+                    .filter(|v| v.is_finite())
+                    .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &v| {
+                        (a.min(v), b.max(v))
+                    });
+                if lo < hi {
+                    (lo, hi)
+                } else {
+                    (lo - 0.5, lo + 0.5)
+                }
             })
             .collect();
         let panels = root.split_evenly((n, n));
-        let tick = (theme::TICK_SIZE * 2 / 3).max(10);
+        let tick = theme::TICK_SIZE * 3 / 4;
         let stride = (self.columns[0].len() / CORNER_POINTS).max(1);
         for row in 0..n {
             for col in 0..n {
@@ -238,8 +313,8 @@ impl Figure for CornerFigure {
                 if col > row {
                     continue;
                 }
-                let x_area = if row == n - 1 { 36 } else { 4 };
-                let y_area = if col == 0 { 48 } else { 4 };
+                let x_area = if row == n - 1 { 56 } else { 4 };
+                let y_area = if col == 0 { 92 } else { 4 };
                 let (x0, x1) = ranges[col];
                 if row == col {
                     let bins = 30;
@@ -255,9 +330,12 @@ impl Figure for CornerFigure {
                         .build_cartesian_2d(x0..x1, 0.0..top)
                         .map_err(draw_error)?;
                     let mut mesh = chart.configure_mesh();
-                    mesh.disable_mesh().y_labels(0).label_style(font(tick)).axis_desc_style(font(tick + 2));
+                    mesh.disable_mesh()
+                        .y_labels(0)
+                        .label_style(font(tick))
+                        .axis_desc_style(font(tick + 2));
                     if row == n - 1 {
-                        mesh.x_desc(self.names[col].as_str()).x_labels(3);
+                        mesh.x_desc(short_label(&self.names[col])).x_labels(3);
                     } else {
                         mesh.x_labels(0);
                     }
@@ -266,7 +344,10 @@ impl Figure for CornerFigure {
                     chart
                         .draw_series(counts.iter().enumerate().map(|(k, &c)| {
                             let left = x0 + width * k as f64;
-                            Rectangle::new([(left, 0.0), (left + width, c as f64)], theme::POSTERIOR.mix(0.6).filled())
+                            Rectangle::new(
+                                [(left, 0.0), (left + width, c as f64)],
+                                theme::POSTERIOR.mix(0.6).filled(),
+                            )
                         }))
                         .map_err(draw_error)?;
                 } else {
@@ -277,14 +358,16 @@ impl Figure for CornerFigure {
                         .build_cartesian_2d(x0..x1, y0..y1)
                         .map_err(draw_error)?;
                     let mut mesh = chart.configure_mesh();
-                    mesh.disable_mesh().label_style(font(tick)).axis_desc_style(font(tick + 2));
+                    mesh.disable_mesh()
+                        .label_style(font(tick))
+                        .axis_desc_style(font(tick + 2));
                     if row == n - 1 {
-                        mesh.x_desc(self.names[col].as_str()).x_labels(3);
+                        mesh.x_desc(short_label(&self.names[col])).x_labels(3);
                     } else {
                         mesh.x_labels(0);
                     }
                     if col == 0 {
-                        mesh.y_desc(self.names[row].as_str()).y_labels(3);
+                        mesh.y_desc(short_label(&self.names[row])).y_labels(3);
                     } else {
                         mesh.y_labels(0);
                     }
@@ -296,13 +379,33 @@ impl Figure for CornerFigure {
                                 .zip(&self.columns[row])
                                 .step_by(stride)
                                 .filter(|(x, y)| x.is_finite() && y.is_finite())
-                                .map(|(&x, &y)| Circle::new((x, y), 1, theme::POSTERIOR.mix(0.35).filled())),
+                                .map(|(&x, &y)| {
+                                    Circle::new((x, y), 1, theme::POSTERIOR.mix(0.35).filled())
+                                }),
                         )
                         .map_err(draw_error)?;
                 }
             }
         }
         Ok(())
+    }
+}
+
+/// A tick label on a log axis: powers of ten and their 2× and 5× multiples, blank elsewhere.
+fn log_tick(value: f64) -> String {
+    let exponent = value.log10().floor();
+    let mantissa = value / 10f64.powf(exponent);
+    let nice = [1.0, 2.0, 5.0]
+        .iter()
+        .any(|m| (mantissa - m).abs() < 1e-6 * m);
+    if !nice {
+        return String::new();
+    }
+    if (1e-3..1e5).contains(&value) {
+        let decimals = (-exponent).max(0.0) as usize;
+        format!("{value:.decimals$}")
+    } else {
+        format!("{value:.0e}")
     }
 }
 
@@ -330,16 +433,25 @@ pub struct PopulationFigure {
 impl Figure for PopulationFigure {
     fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> Result<(), ReportError> {
         root.fill(&WHITE).map_err(draw_error)?;
-        let xs = self.points.iter().flat_map(|p| [p.v_rel_kms.1, p.v_rel_kms.2]);
-        let ys = self
+        let xs = self
             .points
             .iter()
-            .flat_map(|p| [p.sigma_m_cm2_g.1, p.sigma_m_cm2_g.2, p.upper95_cm2_g.unwrap_or(p.sigma_m_cm2_g.2)]);
+            .flat_map(|p| [p.v_rel_kms.1, p.v_rel_kms.2]);
+        let ys = self.points.iter().flat_map(|p| {
+            [
+                p.sigma_m_cm2_g.1,
+                p.sigma_m_cm2_g.2,
+                p.upper95_cm2_g.unwrap_or(p.sigma_m_cm2_g.2),
+            ]
+        });
         let positive = |it: &mut dyn Iterator<Item = f64>| {
             it.filter(|v| v.is_finite() && *v > 0.0)
-                .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), v| (a.min(v), b.max(v)))
+                .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), v| {
+                    (a.min(v), b.max(v))
+                })
         };
-        let (mut x0, mut x1) = positive(&mut xs.chain(self.curves.iter().flat_map(|c| c.1.iter().map(|p| p.0))));
+        let (mut x0, mut x1) =
+            positive(&mut xs.chain(self.curves.iter().flat_map(|c| c.1.iter().map(|p| p.0))));
         let (mut y0, mut y1) = positive(&mut ys.into_iter());
         if !(x0 < x1) {
             (x0, x1) = (10.0, 1000.0);
@@ -360,6 +472,8 @@ impl Figure for PopulationFigure {
             .disable_mesh()
             .x_desc("Mean relative velocity <v_rel> [km/s]")
             .y_desc("σ/m [cm²/g]")
+            .x_label_formatter(&|v| log_tick(*v))
+            .y_label_formatter(&|v| log_tick(*v))
             .label_style(font(theme::TICK_SIZE))
             .axis_desc_style(font(theme::LABEL_SIZE))
             .draw()
@@ -373,7 +487,9 @@ impl Figure for PopulationFigure {
                 ))
                 .map_err(draw_error)?
                 .label(label.as_str())
-                .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 24, y)], colour.stroke_width(3)));
+                .legend(move |(x, y)| {
+                    PathElement::new(vec![(x, y), (x + 24, y)], colour.stroke_width(3))
+                });
         }
         for p in &self.points {
             let (v, v_lo, v_hi) = p.v_rel_kms;
@@ -382,11 +498,18 @@ impl Figure for PopulationFigure {
                 chart
                     .draw_series([
                         PathElement::new(vec![(v, limit), (v, tip)], theme::LIMIT.stroke_width(2)),
-                        PathElement::new(vec![(v_lo, limit), (v_hi, limit)], theme::LIMIT.stroke_width(2)),
+                        PathElement::new(
+                            vec![(v_lo, limit), (v_hi, limit)],
+                            theme::LIMIT.stroke_width(2),
+                        ),
                     ])
                     .map_err(draw_error)?;
                 chart
-                    .draw_series(std::iter::once(TriangleMarker::new((v, tip), 7, theme::LIMIT.filled())))
+                    .draw_series(std::iter::once(TriangleMarker::new(
+                        (v, tip),
+                        7,
+                        theme::LIMIT.filled(),
+                    )))
                     .map_err(draw_error)?;
             } else {
                 let (s, s_lo, s_hi) = p.sigma_m_cm2_g;
@@ -411,7 +534,11 @@ impl Figure for PopulationFigure {
                     )))
                     .map_err(draw_error)?;
                 chart
-                    .draw_series(std::iter::once(Circle::new((v, s), 6, theme::DATA.filled())))
+                    .draw_series(std::iter::once(Circle::new(
+                        (v, s),
+                        6,
+                        theme::DATA.filled(),
+                    )))
                     .map_err(draw_error)?;
             }
         }

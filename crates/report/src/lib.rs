@@ -43,6 +43,10 @@ pub fn register_font() {
     static REGISTER: Once = Once::new();
     REGISTER.call_once(|| {
         // Registration only fails on a malformed font; the bundled one is known to load (tested).
-        let _ = plotters::style::register_font(theme::FONT, plotters::style::FontStyle::Normal, FONT_BYTES);
+        let _ = plotters::style::register_font(
+            theme::FONT,
+            plotters::style::FontStyle::Normal,
+            FONT_BYTES,
+        );
     });
 }

@@ -8,8 +8,14 @@ use caldera_infer::summary::Interval;
 /// One galaxy and model, as the tables show it.
 pub type ResultRow = FitSummary;
 
-fn column(rows: &[ResultRow], pick: impl Fn(&ResultRow) -> Option<Interval>, field: impl Fn(&Interval) -> f64) -> Vec<f64> {
-    rows.iter().map(|r| pick(r).map_or(f64::NAN, |i| field(&i))).collect()
+fn column(
+    rows: &[ResultRow],
+    pick: impl Fn(&ResultRow) -> Option<Interval>,
+    field: impl Fn(&Interval) -> f64,
+) -> Vec<f64> {
+    rows.iter()
+        .map(|r| pick(r).map_or(f64::NAN, |i| field(&i)))
+        .collect()
 }
 
 /// The results table: for σ/m median, 16/84 and 2.5/97.5 percentiles and the 95% upper limit
@@ -28,7 +34,11 @@ pub fn results_table(rows: &[ResultRow]) -> OutputTable {
         ("p2_5", |i| i.p2_5),
         ("p97_5", |i| i.p97_5),
     ] {
-        table = table.with_column(&format!("sigma_m_{suffix}"), Some("cm2 / g"), column(rows, sigma, field));
+        table = table.with_column(
+            &format!("sigma_m_{suffix}"),
+            Some("cm2 / g"),
+            column(rows, sigma, field),
+        );
     }
     table = table.with_column(
         "sigma_m_upper95",
@@ -45,7 +55,11 @@ pub fn results_table(rows: &[ResultRow]) -> OutputTable {
     ];
     for (name, unit, pick) in quantities {
         table = table
-            .with_column(&format!("{name}_median"), unit, column(rows, pick, |i| i.median))
+            .with_column(
+                &format!("{name}_median"),
+                unit,
+                column(rows, pick, |i| i.median),
+            )
             .with_column(&format!("{name}_p16"), unit, column(rows, pick, |i| i.p16))
             .with_column(&format!("{name}_p84"), unit, column(rows, pick, |i| i.p84));
     }
@@ -57,7 +71,10 @@ pub fn results_table(rows: &[ResultRow]) -> OutputTable {
         .with_column("bic", None, rows.iter().map(|r| r.bic).collect())
         .with_flag_column("converged", rows.iter().map(|r| r.converged).collect())
         .with_column("tau_max", None, rows.iter().map(|r| r.tau_max).collect())
-        .with_meta("description", MetaValue::Text("Caldera fit results: one row per galaxy and halo model".into()))
+        .with_meta(
+            "description",
+            MetaValue::Text("Caldera fit results: one row per galaxy and halo model".into()),
+        )
 }
 
 /// A value with asymmetric errors in LaTeX math, with significant figures set by the smaller
@@ -70,7 +87,13 @@ fn latex_interval(i: Option<Interval>) -> String {
     let (plus, minus) = (i.p84 - i.median, i.median - i.p16);
     let scale = plus.min(minus).abs().max(f64::MIN_POSITIVE);
     let decimals = (1 - scale.log10().floor() as i32).clamp(0, 6) as usize;
-    format!("${:.d$}^{{+{:.d$}}}_{{-{:.d$}}}$", i.median, plus, minus, d = decimals)
+    format!(
+        "${:.d$}^{{+{:.d$}}}_{{-{:.d$}}}$",
+        i.median,
+        plus,
+        minus,
+        d = decimals
+    )
 }
 
 fn significant(value: f64, digits: i32) -> String {
@@ -127,9 +150,19 @@ mod tests {
 
     #[test]
     fn intervals_and_limits_format_for_latex() {
-        let i = Interval { median: 5.09, p16: 0.94, p84: 22.4, p2_5: 0.3, p97_5: 47.6, upper95: None };
+        let i = Interval {
+            median: 5.09,
+            p16: 0.94,
+            p84: 22.4,
+            p2_5: 0.3,
+            p97_5: 47.6,
+            upper95: None,
+        };
         assert_eq!(latex_interval(Some(i)), "$5.1^{+17.3}_{-4.2}$");
-        let limit = Interval { upper95: Some(0.873), ..i };
+        let limit = Interval {
+            upper95: Some(0.873),
+            ..i
+        };
         assert_eq!(latex_interval(Some(limit)), "$<0.87$");
         assert_eq!(latex_interval(None), "--");
         assert_eq!(latex_escape("Kiln_D01 & co"), "Kiln\\_D01 \\& co");
