@@ -72,6 +72,9 @@ fn font(size: u32) -> TextStyle<'static> {
     (theme::FONT, size).into_font().into()
 }
 
+/// A named line: label, colour, points, stroke width.
+type Curve<'a> = (&'a str, RGBColor, Vec<(f64, f64)>, u32);
+
 /// A galaxy's rotation curve: data with error bars, baryonic components, halo and total, r1 and
 /// the core radius marked, and residuals (V_obs − V_model)/σ beneath on the same radius axis.
 #[derive(Debug, Clone, PartialEq)]
@@ -121,7 +124,7 @@ impl Figure for RotationCurveFigure {
         let line = |values: &[f64], radii: &[f64]| -> Vec<(f64, f64)> {
             radii.iter().copied().zip(values.iter().copied()).collect()
         };
-        let mut series: Vec<(&str, RGBColor, Vec<(f64, f64)>, u32)> = vec![
+        let mut series: Vec<Curve> = vec![
             ("gas", theme::GAS, line(&c.v_gas_kms, &c.radius_kpc), 2),
             (
                 "stellar disk",
@@ -453,10 +456,10 @@ impl Figure for PopulationFigure {
         let (mut x0, mut x1) =
             positive(&mut xs.chain(self.curves.iter().flat_map(|c| c.1.iter().map(|p| p.0))));
         let (mut y0, mut y1) = positive(&mut ys.into_iter());
-        if !(x0 < x1) {
+        if x0.is_nan() || x1.is_nan() || x0 >= x1 {
             (x0, x1) = (10.0, 1000.0);
         }
-        if !(y0 < y1) {
+        if y0.is_nan() || y1.is_nan() || y0 >= y1 {
             (y0, y1) = (0.01, 100.0);
         }
         let (x0, x1, y0, y1) = (x0 / 1.5, x1 * 1.5, y0 / 3.0, y1 * 3.0);

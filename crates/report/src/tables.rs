@@ -18,6 +18,9 @@ fn column(
         .collect()
 }
 
+/// A summarised quantity: column prefix, unit, and how to find its interval in a row.
+type Quantity = (&'static str, Option<&'static str>, fn(&ResultRow) -> Option<Interval>);
+
 /// The results table: for σ/m median, 16/84 and 2.5/97.5 percentiles and the 95% upper limit
 /// (NaN unless the galaxy gives only a limit); medians and 16/84 percentiles of ⟨v_rel⟩, V200,
 /// c200, Υ_disk, Υ_bulge; then χ², dof, χ²/ν, AIC, BIC, convergence and τ.
@@ -45,7 +48,7 @@ pub fn results_table(rows: &[ResultRow]) -> OutputTable {
         Some("cm2 / g"),
         column(rows, sigma, |i| i.upper95.unwrap_or(f64::NAN)),
     );
-    let quantities: [(&str, Option<&str>, fn(&ResultRow) -> Option<Interval>); 6] = [
+    let quantities: [Quantity; 6] = [
         ("v_rel", Some("km / s"), |r| r.v_rel_kms),
         ("v200", Some("km / s"), |r| r.v200_kms),
         ("c200", None, |r| r.c200),
