@@ -163,7 +163,7 @@ fn ctrl_c_stops_cleanly_and_a_rerun_finishes_the_work() {
     let dir = temp_dir("interrupt");
     let catalogue = small_catalogue(&dir);
     let out = dir.join("out");
-    let mut child = Command::new(env!("CARGO_BIN_EXE_caldera"))
+    let child = Command::new(env!("CARGO_BIN_EXE_caldera"))
         .args([
             "fit",
             &catalogue.to_string_lossy(),
