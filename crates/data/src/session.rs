@@ -21,7 +21,9 @@ pub const SESSION_VERSION: u32 = 1;
 pub const SESSION_EXTENSION: &str = "ron";
 
 /// Halo models a user can choose.
-#[derive(Debug, Clone, Copy, Default, PartialEq, Eq, Serialize, Deserialize)]
+#[derive(
+    Debug, Clone, Copy, Default, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize, Deserialize,
+)]
 pub enum HaloModel {
     #[default]
     Sidm,
@@ -64,9 +66,22 @@ pub struct GalaxySettings {
     pub upsilon_disk: f64,
     pub upsilon_bulge: f64,
     pub age_gyr: f64,
+    /// Central density and core radius of the cored empirical halos (Burkert, pseudo-isothermal).
+    #[serde(default = "default_cored_rho0")]
+    pub rho0_msun_kpc3: f64,
+    #[serde(default = "default_cored_radius")]
+    pub core_radius_kpc: f64,
     /// Overrides of the table's distance and inclination, when the user changed them.
     pub distance_mpc: Option<f64>,
     pub inclination_deg: Option<f64>,
+}
+
+fn default_cored_rho0() -> f64 {
+    3e7
+}
+
+fn default_cored_radius() -> f64 {
+    2.0
 }
 
 impl Default for GalaxySettings {
@@ -79,6 +94,8 @@ impl Default for GalaxySettings {
             upsilon_disk: 0.5,
             upsilon_bulge: 0.7,
             age_gyr: caldera_physics::units::DEFAULT_HALO_AGE_GYR,
+            rho0_msun_kpc3: default_cored_rho0(),
+            core_radius_kpc: default_cored_radius(),
             distance_mpc: None,
             inclination_deg: None,
         }

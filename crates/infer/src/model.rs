@@ -456,6 +456,39 @@ impl GalaxyModel {
         ))
     }
 
+    /// The baryonic enclosed mass for the Jeans equation, from the rows' V_b² at radii rescaled by
+    /// `distance_factor` (rows at one radius averaged).
+    fn baryon_mass_model(
+        &self,
+        distance_factor: f64,
+        v_baryon2_kms2: &[f64],
+    ) -> Result<BaryonTable, PhysicsError> {
+        let (radii, masses): (Vec<f64>, Vec<f64>) = self
+            .unique
+            .iter()
+            .map(|&(r, first, count)| {
+                let mean_v2 =
+                    v_baryon2_kms2[first..first + count].iter().sum::<f64>() / count as f64;
+                let r_scaled = r * distance_factor;
+                (r_scaled, r_scaled * mean_v2 / G_KPC_KMS2_PER_MSUN)
+            })
+            .unzip();
+        BaryonTable::from_signed_mass(radii, masses)
+    }
+
+    /// The baryonic enclosed mass the Jeans equation sees at the nuisance parameters of `theta`
+    /// (its halo coordinates are ignored), e.g. for a halo-first solve at the same Υ, D and i.
+    pub fn baryons_at(&self, theta: &[f64]) -> Result<BaryonTable, PhysicsError> {
+        let (upsilon_disk, upsilon_bulge, distance_factor, _) = self.nuisances(theta);
+        let v_baryon2_kms2: Vec<f64> = (0..self.n_points())
+            .map(|i| {
+                distance_factor
+                    * (self.gas2[i] + upsilon_disk * self.disk2[i] + upsilon_bulge * self.bulge2[i])
+            })
+            .collect();
+        self.baryon_mass_model(distance_factor, &v_baryon2_kms2)
+    }
+
     /// Builds the halo at `theta` for data rescaled by `distance_factor` (with baryonic V² per
     /// row `v_baryon2_kms2`), filling the halo's derived quantities into `derived`.
     fn build_halo(
@@ -469,18 +502,7 @@ impl GalaxyModel {
         let p = |k: usize| self.parameters[h + k].physical(theta[h + k]);
         let halo: Box<dyn HaloProfile> = match self.model {
             HaloModel::Sidm => {
-                // Baryonic enclosed mass at the unique radii (rows at one radius averaged).
-                let (radii, masses): (Vec<f64>, Vec<f64>) = self
-                    .unique
-                    .iter()
-                    .map(|&(r, first, count)| {
-                        let mean_v2 =
-                            v_baryon2_kms2[first..first + count].iter().sum::<f64>() / count as f64;
-                        let r_scaled = r * distance_factor;
-                        (r_scaled, r_scaled * mean_v2 / G_KPC_KMS2_PER_MSUN)
-                    })
-                    .unzip();
-                let baryons = BaryonTable::from_signed_mass(radii, masses)?;
+                let baryons = self.baryon_mass_model(distance_factor, v_baryon2_kms2)?;
                 let setup = SidmSetup {
                     cross_section: CrossSection::constant(p(2))?,
                     age_gyr: self.age_gyr,

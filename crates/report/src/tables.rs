@@ -19,7 +19,11 @@ fn column(
 }
 
 /// A summarised quantity: column prefix, unit, and how to find its interval in a row.
-type Quantity = (&'static str, Option<&'static str>, fn(&ResultRow) -> Option<Interval>);
+type Quantity = (
+    &'static str,
+    Option<&'static str>,
+    fn(&ResultRow) -> Option<Interval>,
+);
 
 /// The results table: for σ/m median, 16/84 and 2.5/97.5 percentiles and the 95% upper limit
 /// (NaN unless the galaxy gives only a limit); medians and 16/84 percentiles of ⟨v_rel⟩, V200,

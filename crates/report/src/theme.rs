@@ -37,3 +37,10 @@ pub const SIZE: (u32, u32) = (900, 760);
 pub const TITLE_SIZE: u32 = 28;
 pub const LABEL_SIZE: u32 = 24;
 pub const TICK_SIZE: u32 = 20;
+
+/// The (red, green, blue) components of a theme colour, for front ends that draw with another
+/// library (the desktop app).
+#[must_use]
+pub const fn rgb(colour: RGBColor) -> (u8, u8, u8) {
+    (colour.0, colour.1, colour.2)
+}

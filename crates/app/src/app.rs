@@ -1,0 +1,715 @@
+//! The desktop app: state that a session saves, runtime handles that it does not, panels that
+//! draw and emit commands, and the commands applied after each frame.
+
+use std::collections::BTreeMap;
+use std::path::{Path, PathBuf};
+use std::sync::mpsc::{Receiver, channel};
+
+use caldera_data::session::{GalaxySettings, HaloModel, load_session, save_session};
+use caldera_data::{
+    ColumnMapping, ColumnRole, DataError, GalaxyTable, ReadOptions, load_catalogue, read_table,
+    write_atomic,
+};
+use caldera_infer::sampler::RunConfig;
+use caldera_infer::session::Session;
+use caldera_infer::{FitConfig, FitResult};
+use caldera_report::figures::{RotationCurveFigure, save_figure};
+use caldera_report::tables::{latex_table, results_table};
+use egui::Color32;
+
+use crate::live::{LiveCurve, live_curve};
+use crate::theme;
+use crate::worker::{FitJob, FitMessage};
+
+/// How the app starts.
+#[derive(Debug, Clone, PartialEq)]
+pub struct AppOptions {
+    /// A table or catalogue folder to open at start-up.
+    pub catalogue: Option<PathBuf>,
+    /// A session file to restore at start-up (takes precedence over `catalogue`).
+    pub session: Option<PathBuf>,
+    /// Where exports are written.
+    pub export_dir: PathBuf,
+    /// Step cap of fits started from the app.
+    pub fit_max_steps: usize,
+}
+
+impl Default for AppOptions {
+    fn default() -> Self {
+        Self {
+            catalogue: Some(PathBuf::from("demo_galaxies")),
+            session: None,
+            export_dir: PathBuf::from("caldera-exports"),
+            fit_max_steps: RunConfig::default().max_steps,
+        }
+    }
+}
+
+/// One loaded galaxy, or why it could not be loaded.
+pub struct GalaxyEntry {
+    pub path: PathBuf,
+    pub table: Result<GalaxyTable, String>,
+}
+
+impl GalaxyEntry {
+    pub(crate) fn name(&self) -> String {
+        match &self.table {
+            Ok(t) => t.meta.name.clone(),
+            Err(_) => self
+                .path
+                .file_stem()
+                .map_or_else(String::new, |s| s.to_string_lossy().into_owned()),
+        }
+    }
+}
+
+/// Columns of the catalogue list that can sort it.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum SortKey {
+    Name,
+    VMax,
+    Points,
+    SigmaM,
+}
+
+/// The main view.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum View {
+    Galaxy,
+    Population,
+}
+
+/// What the panels ask for; applied after the frame is drawn.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Command {
+    Select(usize),
+    Settings(GalaxySettings),
+    Fit(Vec<HaloModel>),
+    CancelFit,
+    UseBestFit,
+    ExportResults(&'static str),
+    ExportFigure(&'static str),
+    SaveSession,
+    OpenDialog,
+    OpenPath(PathBuf),
+    LoadWithMapping,
+    SetView(View),
+    Sort(SortKey),
+    QuitWithoutSaving,
+    SaveAndQuit,
+}
+
+/// A table waiting for the user to confirm its column roles.
+pub(crate) struct MappingStep {
+    pub(crate) path: PathBuf,
+    pub(crate) message: String,
+    pub(crate) roles: BTreeMap<ColumnRole, String>,
+}
+
+/// Runtime handles and caches: never saved.
+pub(crate) struct Runtime {
+    pub(crate) options: AppOptions,
+    pub(crate) galaxies: Vec<GalaxyEntry>,
+    pub(crate) selected: Option<usize>,
+    pub(crate) live: Option<LiveCurve>,
+    pub(crate) live_error: Option<String>,
+    pub(crate) live_key: Option<(usize, GalaxySettings)>,
+    pub(crate) last_valid: Option<LiveCurve>,
+    pub(crate) fit: Option<FitJob>,
+    pub(crate) fits: BTreeMap<(String, HaloModel), FitResult>,
+    pub(crate) messages: Vec<(Color32, String)>,
+    pub(crate) sort: SortKey,
+    pub(crate) view: View,
+    pub(crate) dirty: bool,
+    pub(crate) confirm_quit: bool,
+    pub(crate) allowed_to_close: bool,
+    pub(crate) session_path: Option<PathBuf>,
+    pub(crate) dialog: Option<Receiver<Option<PathBuf>>>,
+    pub(crate) mapping: Option<MappingStep>,
+}
+
+/// The app: the saved session and the runtime.
+pub struct CalderaApp {
+    pub session: Session,
+    pub(crate) runtime: Runtime,
+}
+
+impl CalderaApp {
+    /// Creates the app and opens the start-up session or catalogue.
+    #[must_use]
+    pub fn new(_cc: &eframe::CreationContext<'_>, options: AppOptions) -> Self {
+        Self::with_options(options)
+    }
+
+    /// Creates the app without a window (tests and benchmarks use the same path).
+    #[must_use]
+    pub fn with_options(options: AppOptions) -> Self {
+        let mut app = Self {
+            session: Session::default(),
+            runtime: Runtime {
+                options: options.clone(),
+                galaxies: Vec::new(),
+                selected: None,
+                live: None,
+                live_error: None,
+                live_key: None,
+                last_valid: None,
+                fit: None,
+                fits: BTreeMap::new(),
+                messages: Vec::new(),
+                sort: SortKey::Name,
+                view: View::Galaxy,
+                dirty: false,
+                confirm_quit: false,
+                allowed_to_close: false,
+                session_path: None,
+                dialog: None,
+                mapping: None,
+            },
+        };
+        if let Some(path) = options.session {
+            app.open_session(&path);
+        } else if let Some(path) = options.catalogue.filter(|p| p.exists()) {
+            app.open_catalogue(&path, &ReadOptions::default());
+        }
+        app
+    }
+
+    /// The live curve currently drawn, if any.
+    #[must_use]
+    pub fn live_curve(&self) -> Option<&LiveCurve> {
+        self.runtime.live.as_ref()
+    }
+
+    /// The message shown when no curve exists for the current values.
+    #[must_use]
+    pub fn live_error(&self) -> Option<&str> {
+        self.runtime.live_error.as_deref()
+    }
+
+    /// True when a fit is running.
+    #[must_use]
+    pub fn fitting(&self) -> bool {
+        self.runtime.fit.is_some()
+    }
+
+    /// True when the session has changes not yet saved.
+    #[must_use]
+    pub fn has_unsaved_changes(&self) -> bool {
+        self.runtime.dirty
+    }
+
+    /// Names of the loaded galaxies, in list order.
+    #[must_use]
+    pub fn galaxy_names(&self) -> Vec<String> {
+        self.runtime
+            .galaxies
+            .iter()
+            .map(GalaxyEntry::name)
+            .collect()
+    }
+
+    fn say(&mut self, colour: Color32, text: impl Into<String>) {
+        self.runtime.messages.push((colour, text.into()));
+    }
+
+    fn open_catalogue(&mut self, path: &Path, read: &ReadOptions) {
+        match load_catalogue(path, read) {
+            Ok(catalogue) => {
+                self.runtime.galaxies.clear();
+                self.runtime.fits.clear();
+                self.runtime.selected = None;
+                for w in &catalogue.warnings {
+                    self.say(theme::WARNING, format!("warning: {w}"));
+                }
+                for entry in catalogue.entries {
+                    match &entry.table {
+                        Ok(t) => {
+                            for w in &t.warnings {
+                                self.runtime
+                                    .messages
+                                    .push((theme::WARNING, format!("warning: {w}")));
+                            }
+                        }
+                        Err(e) => {
+                            self.runtime
+                                .messages
+                                .push((theme::ERROR, format!("error: {e}")));
+                            if matches!(
+                                e,
+                                DataError::MissingColumn { .. } | DataError::Malformed { .. }
+                            ) && self.runtime.mapping.is_none()
+                            {
+                                self.runtime.mapping = Some(MappingStep {
+                                    path: entry.path.clone(),
+                                    message: e.to_string(),
+                                    roles: BTreeMap::new(),
+                                });
+                            }
+                        }
+                    }
+                    self.runtime.galaxies.push(GalaxyEntry {
+                        path: entry.path,
+                        table: entry.table.map_err(|e| e.to_string()),
+                    });
+                }
+                self.session.catalogue = Some(path.to_path_buf());
+                self.session.format = read.format;
+                self.session.column_mapping = read.mapping.clone();
+                let first = self.runtime.galaxies.iter().position(|g| g.table.is_ok());
+                if let Some(i) = first {
+                    self.select(i);
+                }
+                self.say(
+                    Color32::GRAY,
+                    format!(
+                        "opened {} ({} galaxies)",
+                        path.display(),
+                        self.runtime.galaxies.len()
+                    ),
+                );
+            }
+            Err(e) => self.say(theme::ERROR, format!("error: {e}")),
+        }
+    }
+
+    fn open_session(&mut self, path: &Path) {
+        match load_session::<Session>(path) {
+            Ok(session) => {
+                let read = ReadOptions {
+                    format: session.format,
+                    mapping: session.column_mapping.clone(),
+                };
+                let selected = session.selected.clone();
+                if let Some(catalogue) = session.catalogue.clone() {
+                    self.open_catalogue(&catalogue, &read);
+                }
+                self.session = session;
+                if let Some(name) = selected
+                    && let Some(i) = self.galaxy_names().iter().position(|n| *n == name)
+                {
+                    self.select(i);
+                }
+                self.runtime.session_path = Some(path.to_path_buf());
+                self.runtime.dirty = false;
+                self.say(
+                    Color32::GRAY,
+                    format!("restored session {}", path.display()),
+                );
+            }
+            Err(e) => self.say(theme::ERROR, format!("error: {e}")),
+        }
+    }
+
+    fn select(&mut self, index: usize) {
+        if index >= self.runtime.galaxies.len() {
+            return;
+        }
+        self.runtime.selected = Some(index);
+        let name = self.runtime.galaxies[index].name();
+        self.session.selected = Some(name.clone());
+        if let Ok(table) = &self.runtime.galaxies[index].table
+            && !self.session.galaxies.contains_key(&name)
+        {
+            let v_max = table.v_obs_max_kms();
+            let settings = GalaxySettings {
+                v200_kms: (0.8 * v_max).clamp(10.0, 400.0),
+                c200: 10.0,
+                sigma_m_cm2_g: 1.0,
+                distance_mpc: table.meta.distance_mpc,
+                inclination_deg: table.meta.inclination_deg,
+                age_gyr: table
+                    .meta
+                    .age_gyr
+                    .unwrap_or(caldera_physics::units::DEFAULT_HALO_AGE_GYR),
+                ..GalaxySettings::default()
+            };
+            self.session.galaxies.insert(name, settings);
+        }
+        self.runtime.last_valid = None;
+        self.refresh_live();
+    }
+
+    pub(crate) fn current_settings(&self) -> Option<GalaxySettings> {
+        let i = self.runtime.selected?;
+        self.session
+            .galaxies
+            .get(&self.runtime.galaxies[i].name())
+            .cloned()
+    }
+
+    /// Recomputes the live curve when the galaxy or its settings changed.
+    fn refresh_live(&mut self) {
+        let (Some(i), Some(settings)) = (self.runtime.selected, self.current_settings()) else {
+            return;
+        };
+        if self.runtime.live_key.as_ref() == Some(&(i, settings.clone())) {
+            return;
+        }
+        let Ok(table) = &self.runtime.galaxies[i].table else {
+            return;
+        };
+        match live_curve(table, &settings, &self.session.fit.cosmology) {
+            Ok(curve) => {
+                self.runtime.last_valid = Some(curve.clone());
+                self.runtime.live = Some(curve);
+                self.runtime.live_error = None;
+            }
+            Err(e) => {
+                self.runtime.live = None;
+                self.runtime.live_error = Some(e);
+            }
+        }
+        self.runtime.live_key = Some((i, settings));
+    }
+
+    fn fit_config(&self) -> FitConfig {
+        FitConfig {
+            run: RunConfig {
+                max_steps: self.runtime.options.fit_max_steps,
+                min_steps: self
+                    .runtime
+                    .options
+                    .fit_max_steps
+                    .min(RunConfig::default().min_steps),
+                ..self.session.fit.run
+            },
+            ..self.session.fit
+        }
+    }
+
+    fn poll_worker(&mut self) {
+        let Some(job) = &mut self.runtime.fit else {
+            return;
+        };
+        let mut finished = Vec::new();
+        let mut done = false;
+        while let Ok(message) = job.receiver.try_recv() {
+            match message {
+                FitMessage::Progress { model, progress } => job.latest = Some((model, progress)),
+                FitMessage::Finished { model, result } => {
+                    finished.push((job.galaxy.clone(), model, result))
+                }
+                FitMessage::AllDone => done = true,
+            }
+        }
+        for (galaxy, model, result) in finished {
+            match result {
+                Ok(result) => {
+                    if result.summary.cancelled {
+                        self.say(
+                            theme::WARNING,
+                            format!("fit of {galaxy} ({}) cancelled", model.name()),
+                        );
+                        continue;
+                    }
+                    self.session.store_result(result.summary.clone());
+                    self.runtime.fits.insert((galaxy, model), *result);
+                    self.runtime.dirty = true;
+                }
+                Err(e) => self.say(
+                    theme::ERROR,
+                    format!("fit of {galaxy} ({}) failed: {e}", model.name()),
+                ),
+            }
+        }
+        if done {
+            self.runtime.fit = None;
+        }
+    }
+
+    fn apply(&mut self, command: Command, ctx: &egui::Context) {
+        match command {
+            Command::Select(i) => {
+                self.select(i);
+                self.runtime.view = View::Galaxy;
+                self.runtime.dirty = true;
+            }
+            Command::Settings(settings) => {
+                if let Some(i) = self.runtime.selected {
+                    self.session
+                        .galaxies
+                        .insert(self.runtime.galaxies[i].name(), settings);
+                    self.runtime.dirty = true;
+                    self.refresh_live();
+                }
+            }
+            Command::Fit(models) => {
+                if let Some(i) = self.runtime.selected
+                    && let Ok(table) = &self.runtime.galaxies[i].table
+                    && self.runtime.fit.is_none()
+                {
+                    self.runtime.fit =
+                        Some(FitJob::start(table.clone(), models, self.fit_config()));
+                }
+            }
+            Command::CancelFit => {
+                if let Some(job) = &self.runtime.fit {
+                    job.cancel();
+                }
+            }
+            Command::UseBestFit => self.use_best_fit(),
+            Command::ExportResults(format) => self.export_results(format),
+            Command::ExportFigure(format) => self.export_figure(format),
+            Command::SaveSession => {
+                self.save_session();
+            }
+            Command::OpenDialog => {
+                let (sender, receiver) = channel();
+                std::thread::spawn(move || {
+                    let picked = rfd::FileDialog::new()
+                        .set_title("Open a galaxy table, a catalogue folder's table, or a session")
+                        .add_filter(
+                            "tables and sessions",
+                            &["ecsv", "csv", "dat", "txt", "tsv", "ron"],
+                        )
+                        .pick_file();
+                    let _ = sender.send(picked);
+                });
+                self.runtime.dialog = Some(receiver);
+            }
+            Command::OpenPath(path) => {
+                if path.extension().is_some_and(|e| e == "ron") {
+                    self.open_session(&path);
+                } else {
+                    self.open_catalogue(&path, &ReadOptions::default());
+                }
+            }
+            Command::LoadWithMapping => {
+                if let Some(step) = self.runtime.mapping.take() {
+                    let mapping: ColumnMapping = step
+                        .roles
+                        .into_iter()
+                        .filter(|(_, v)| !v.trim().is_empty())
+                        .collect();
+                    let read = ReadOptions {
+                        format: None,
+                        mapping,
+                    };
+                    match read_table(&step.path, &read) {
+                        Ok(table) => {
+                            let name = table.meta.name.clone();
+                            if let Some(entry) = self
+                                .runtime
+                                .galaxies
+                                .iter_mut()
+                                .find(|g| g.path == step.path)
+                            {
+                                entry.table = Ok(table);
+                            }
+                            self.session.column_mapping = read.mapping;
+                            self.say(
+                                Color32::GRAY,
+                                format!("loaded {name} with the column mapping"),
+                            );
+                        }
+                        Err(e) => {
+                            self.runtime.mapping = Some(MappingStep {
+                                path: step.path,
+                                message: e.to_string(),
+                                roles: read.mapping,
+                            });
+                        }
+                    }
+                }
+            }
+            Command::SetView(view) => self.runtime.view = view,
+            Command::Sort(key) => self.runtime.sort = key,
+            Command::QuitWithoutSaving => {
+                self.runtime.allowed_to_close = true;
+                ctx.send_viewport_cmd(egui::ViewportCommand::Close);
+            }
+            Command::SaveAndQuit => {
+                if self.save_session() {
+                    self.runtime.allowed_to_close = true;
+                    ctx.send_viewport_cmd(egui::ViewportCommand::Close);
+                }
+            }
+        }
+    }
+
+    fn use_best_fit(&mut self) {
+        let (Some(i), Some(mut settings)) = (self.runtime.selected, self.current_settings()) else {
+            return;
+        };
+        let name = self.runtime.galaxies[i].name();
+        let Some(summary) = self.session.result(&name, settings.model) else {
+            return;
+        };
+        let best = &summary.best_fit;
+        let pick = |k: &str| best.get(k).copied();
+        if let Some(v) = pick("sigma_m_cm2_g") {
+            settings.sigma_m_cm2_g = v;
+        }
+        if let (Some(v), Some(c)) = (summary.v200_kms, summary.c200) {
+            settings.v200_kms = v.median;
+            settings.c200 = c.median;
+        }
+        if let Some(v) = pick("v200_kms") {
+            settings.v200_kms = v;
+        }
+        if let Some(v) = pick("c200") {
+            settings.c200 = v;
+        }
+        if let Some(v) = pick("rho0_msun_kpc3") {
+            settings.rho0_msun_kpc3 = v;
+        }
+        if let Some(v) = pick("r0_kpc").or(pick("rc_kpc")) {
+            settings.core_radius_kpc = v;
+        }
+        if let Some(v) = pick("upsilon_disk") {
+            settings.upsilon_disk = v;
+        }
+        if let Some(v) = pick("upsilon_bulge") {
+            settings.upsilon_bulge = v;
+        }
+        if let Some(v) = pick("distance_mpc") {
+            settings.distance_mpc = Some(v);
+        }
+        if let Some(v) = pick("inclination_deg") {
+            settings.inclination_deg = Some(v);
+        }
+        self.session.galaxies.insert(name, settings);
+        self.runtime.dirty = true;
+        self.refresh_live();
+    }
+
+    fn export_dir(&mut self) -> Option<PathBuf> {
+        let dir = self.runtime.options.export_dir.clone();
+        match std::fs::create_dir_all(&dir) {
+            Ok(()) => Some(dir),
+            Err(e) => {
+                self.say(
+                    theme::ERROR,
+                    format!("error: cannot create {}: {e}", dir.display()),
+                );
+                None
+            }
+        }
+    }
+
+    fn export_results(&mut self, format: &str) {
+        let Some(dir) = self.export_dir() else { return };
+        let rows = &self.session.results;
+        let path = dir.join(format!("results.{format}"));
+        let text = match format {
+            "csv" => results_table(rows).to_csv(&path).map_err(|e| e.to_string()),
+            "ecsv" => results_table(rows)
+                .to_ecsv(&path)
+                .map_err(|e| e.to_string()),
+            _ => Ok(latex_table(rows)),
+        };
+        match text.and_then(|t| write_atomic(&path, t.as_bytes()).map_err(|e| e.to_string())) {
+            Ok(()) => self.say(Color32::GRAY, format!("wrote {}", path.display())),
+            Err(e) => self.say(theme::ERROR, format!("error: {e}")),
+        }
+    }
+
+    fn export_figure(&mut self, format: &str) {
+        let (Some(curve), Some(settings)) = (self.runtime.live.clone(), self.current_settings())
+        else {
+            self.say(theme::WARNING, "no curve to export");
+            return;
+        };
+        let Some(dir) = self.export_dir() else { return };
+        let name = self.session.selected.clone().unwrap_or_default();
+        let figure = RotationCurveFigure {
+            title: format!("{name} — {} halo", settings.model.name()),
+            components: curve.components,
+        };
+        let file = format!(
+            "{}_{}.{format}",
+            name.replace([' ', '/'], "_"),
+            settings.model.name()
+        );
+        let path = dir.join(file);
+        match save_figure(&figure, &path) {
+            Ok(()) => self.say(Color32::GRAY, format!("wrote {}", path.display())),
+            Err(e) => self.say(theme::ERROR, format!("error: {e}")),
+        }
+    }
+
+    fn save_session(&mut self) -> bool {
+        let path = match &self.runtime.session_path {
+            Some(p) => p.clone(),
+            None => match self.export_dir() {
+                Some(dir) => dir.join("session.ron"),
+                None => return false,
+            },
+        };
+        match save_session(&path, &self.session) {
+            Ok(()) => {
+                self.runtime.dirty = false;
+                self.runtime.session_path = Some(path.clone());
+                self.say(Color32::GRAY, format!("saved session {}", path.display()));
+                true
+            }
+            Err(e) => {
+                self.say(theme::ERROR, format!("error: {e}"));
+                false
+            }
+        }
+    }
+}
+
+impl eframe::App for CalderaApp {
+    fn ui(&mut self, ui: &mut egui::Ui, _frame: &mut eframe::Frame) {
+        let ctx = ui.ctx().clone();
+        self.poll_worker();
+        if let Some(receiver) = &self.runtime.dialog
+            && let Ok(picked) = receiver.try_recv()
+        {
+            self.runtime.dialog = None;
+            if let Some(path) = picked {
+                self.apply(Command::OpenPath(path), &ctx);
+            }
+        }
+        let dropped: Vec<PathBuf> = ctx.input(|i| {
+            i.raw
+                .dropped_files
+                .iter()
+                .map(|f| f.path().to_path_buf())
+                .filter(|p| !p.as_os_str().is_empty())
+                .collect()
+        });
+        if ctx.input(|i| i.viewport().close_requested())
+            && self.runtime.dirty
+            && !self.runtime.allowed_to_close
+        {
+            ctx.send_viewport_cmd(egui::ViewportCommand::CancelClose);
+            self.runtime.confirm_quit = true;
+        }
+
+        let mut commands: Vec<Command> = dropped.into_iter().map(Command::OpenPath).collect();
+        egui::Panel::top("toolbar").show(ui, |ui| self.toolbar_ui(ui, &mut commands));
+        egui::Panel::bottom("messages")
+            .resizable(true)
+            .show(ui, |ui| self.messages_ui(ui));
+        egui::Panel::left("galaxies")
+            .resizable(true)
+            .default_size(330.0)
+            .show(ui, |ui| self.catalogue_ui(ui, &mut commands));
+        egui::Panel::right("controls")
+            .resizable(true)
+            .default_size(330.0)
+            .show(ui, |ui| {
+                egui::ScrollArea::vertical().show(ui, |ui| {
+                    self.controls_ui(ui, &mut commands);
+                    ui.separator();
+                    self.fit_ui(ui, &mut commands);
+                });
+            });
+        egui::CentralPanel::default().show(ui, |ui| match self.runtime.view {
+            View::Galaxy => self.curve_ui(ui),
+            View::Population => self.population_ui(ui, &mut commands),
+        });
+        self.mapping_ui(&ctx, &mut commands);
+        self.quit_ui(&ctx, &mut commands);
+        for command in commands {
+            self.apply(command, &ctx);
+        }
+        if self.runtime.fit.is_some() || self.runtime.dialog.is_some() {
+            ctx.request_repaint_after(std::time::Duration::from_millis(100));
+        }
+    }
+}

@@ -1,0 +1,14 @@
+//! The Caldera desktop app (eframe, egui, egui_plot): open a galaxy's table, drag the halo's
+//! parameters and watch the curve and residuals follow, fit on a worker thread, read σ/m with
+//! its uncertainty, compare models, see the population, export. Drawing and commands only: the
+//! computing is in the library crates.
+//!
+//! Main types: [`CalderaApp`], [`AppOptions`], [`live::live_curve`].
+
+mod app;
+pub mod live;
+mod panels;
+pub mod theme;
+mod worker;
+
+pub use app::{AppOptions, CalderaApp};

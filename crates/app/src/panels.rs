@@ -1,0 +1,694 @@
+//! The panels: each `*_ui` function only draws and pushes [`Command`]s.
+
+use caldera_data::session::HaloModel;
+use egui::{Color32, RichText};
+use egui_plot::{Bar, BarChart, Legend, Line, MarkerShape, Plot, PlotPoints, Points, VLine};
+
+use crate::app::{CalderaApp, Command, SortKey, View};
+use crate::theme;
+
+/// Tick labels for axes that plot log10 values: the value itself.
+fn power_of_ten(mark: egui_plot::GridMark, _range: &std::ops::RangeInclusive<f64>) -> String {
+    let v = 10f64.powf(mark.value);
+    if (0.01..1e5).contains(&v) {
+        format!("{v:.3}")
+            .trim_end_matches('0')
+            .trim_end_matches('.')
+            .to_string()
+    } else {
+        format!("{v:.0e}")
+    }
+}
+
+impl CalderaApp {
+    pub(crate) fn toolbar_ui(&self, ui: &mut egui::Ui, commands: &mut Vec<Command>) {
+        ui.horizontal_wrapped(|ui| {
+            if ui.button("Open…").on_hover_text("Open a galaxy table (ECSV, CSV, whitespace) or a session; or drop files on the window").clicked() {
+                commands.push(Command::OpenDialog);
+            }
+            if ui.button("Save session").clicked() {
+                commands.push(Command::SaveSession);
+            }
+            ui.separator();
+            ui.label("Export results:");
+            for (label, format) in [("CSV", "csv"), ("ECSV", "ecsv"), ("LaTeX", "tex")] {
+                if ui.button(label).on_hover_text(format!("Write results.{format} to the export folder")).clicked() {
+                    commands.push(Command::ExportResults(format));
+                }
+            }
+            ui.label("Export figure:");
+            for (label, format) in [("SVG", "svg"), ("PNG", "png")] {
+                if ui.button(label).clicked() {
+                    commands.push(Command::ExportFigure(format));
+                }
+            }
+            ui.separator();
+            let view = self.runtime.view;
+            if ui.selectable_label(view == View::Galaxy, "Rotation curve").clicked() {
+                commands.push(Command::SetView(View::Galaxy));
+            }
+            if ui.selectable_label(view == View::Population, "Population").clicked() {
+                commands.push(Command::SetView(View::Population));
+            }
+            if self.runtime.dirty {
+                ui.label(RichText::new("unsaved changes").color(theme::WARNING));
+            }
+        });
+    }
+
+    pub(crate) fn messages_ui(&self, ui: &mut egui::Ui) {
+        egui::ScrollArea::vertical()
+            .max_height(90.0)
+            .stick_to_bottom(true)
+            .show(ui, |ui| {
+                for (colour, text) in &self.runtime.messages {
+                    ui.label(RichText::new(text).color(*colour).small());
+                }
+            });
+    }
+
+    pub(crate) fn catalogue_ui(&self, ui: &mut egui::Ui, commands: &mut Vec<Command>) {
+        ui.heading("Galaxies");
+        let mut order: Vec<usize> = (0..self.runtime.galaxies.len()).collect();
+        let v_max = |i: usize| {
+            self.runtime.galaxies[i]
+                .table
+                .as_ref()
+                .map_or(f64::NAN, |t| t.v_obs_max_kms())
+        };
+        let sigma = |i: usize| {
+            self.session
+                .result(&self.runtime.galaxies[i].name(), HaloModel::Sidm)
+                .and_then(|r| r.sigma_m_cm2_g)
+                .map_or(f64::NAN, |s| s.median)
+        };
+        match self.runtime.sort {
+            SortKey::Name => order.sort_by_key(|&i| self.runtime.galaxies[i].name()),
+            SortKey::VMax => order.sort_by(|&a, &b| v_max(a).total_cmp(&v_max(b))),
+            SortKey::Points => order.sort_by_key(|&i| {
+                self.runtime.galaxies[i]
+                    .table
+                    .as_ref()
+                    .map_or(0, |t| t.len())
+            }),
+            SortKey::SigmaM => order.sort_by(|&a, &b| sigma(a).total_cmp(&sigma(b))),
+        }
+        egui::ScrollArea::vertical().show(ui, |ui| {
+            egui::Grid::new("galaxy list").striped(true).show(ui, |ui| {
+                for (label, key) in [
+                    ("Name", SortKey::Name),
+                    ("V_max [km/s]", SortKey::VMax),
+                    ("Points", SortKey::Points),
+                    ("SIDM σ/m [cm²/g]", SortKey::SigmaM),
+                ] {
+                    if ui
+                        .selectable_label(self.runtime.sort == key, label)
+                        .on_hover_text("Sort by this column")
+                        .clicked()
+                    {
+                        commands.push(Command::Sort(key));
+                    }
+                }
+                ui.label("Fit");
+                ui.end_row();
+                for i in order {
+                    let entry = &self.runtime.galaxies[i];
+                    let name = entry.name();
+                    let selected = self.runtime.selected == Some(i);
+                    if ui.selectable_label(selected, &name).clicked() {
+                        commands.push(Command::Select(i));
+                    }
+                    match &entry.table {
+                        Ok(t) => {
+                            ui.label(format!("{:.0}", t.v_obs_max_kms()));
+                            ui.label(t.len().to_string());
+                        }
+                        Err(_) => {
+                            ui.label(RichText::new("error").color(theme::ERROR));
+                            ui.label("-");
+                        }
+                    }
+                    match self
+                        .session
+                        .result(&name, HaloModel::Sidm)
+                        .and_then(|r| r.sigma_m_cm2_g)
+                    {
+                        Some(s) => match s.upper95 {
+                            Some(limit) => ui.label(format!("< {limit:.2}")),
+                            None => ui.label(format!("{:.2}", s.median)),
+                        },
+                        None => ui.label("-"),
+                    };
+                    let fitted: Vec<&str> = HaloModel::ALL
+                        .iter()
+                        .filter(|m| self.session.result(&name, **m).is_some())
+                        .map(|m| m.name())
+                        .collect();
+                    ui.label(if fitted.is_empty() {
+                        "-".to_string()
+                    } else {
+                        fitted.join(",")
+                    });
+                    ui.end_row();
+                }
+            });
+        });
+    }
+
+    pub(crate) fn controls_ui(&self, ui: &mut egui::Ui, commands: &mut Vec<Command>) {
+        ui.heading("Halo model");
+        let Some(before) = self.current_settings() else {
+            ui.label("Open a galaxy table to start.");
+            return;
+        };
+        let mut s = before.clone();
+        egui::ComboBox::from_label("Model")
+            .selected_text(model_label(s.model))
+            .show_ui(ui, |ui| {
+                for m in HaloModel::ALL {
+                    ui.selectable_value(&mut s.model, m, model_label(m));
+                }
+            });
+        match s.model {
+            HaloModel::Sidm | HaloModel::Nfw => {
+                if s.model == HaloModel::Sidm {
+                    ui.add(
+                        egui::Slider::new(&mut s.sigma_m_cm2_g, 0.01..=100.0)
+                            .logarithmic(true)
+                            .text("σ/m [cm²/g]"),
+                    );
+                }
+                ui.add(
+                    egui::Slider::new(&mut s.v200_kms, 10.0..=400.0)
+                        .logarithmic(true)
+                        .text("V200 [km/s]"),
+                );
+                ui.add(
+                    egui::Slider::new(&mut s.c200, 1.0..=50.0)
+                        .logarithmic(true)
+                        .text("c200"),
+                );
+            }
+            HaloModel::Burkert | HaloModel::PseudoIsothermal => {
+                ui.add(
+                    egui::Slider::new(&mut s.rho0_msun_kpc3, 1e5..=1e11)
+                        .logarithmic(true)
+                        .text("ρ0 [Msun/kpc³]"),
+                );
+                ui.add(
+                    egui::Slider::new(&mut s.core_radius_kpc, 0.05..=50.0)
+                        .logarithmic(true)
+                        .text("core radius [kpc]"),
+                );
+            }
+        }
+        ui.add(
+            egui::Slider::new(&mut s.upsilon_disk, 0.05..=3.0)
+                .logarithmic(true)
+                .text("Mass-to-light, disk"),
+        );
+        ui.add(
+            egui::Slider::new(&mut s.upsilon_bulge, 0.05..=3.0)
+                .logarithmic(true)
+                .text("Mass-to-light, bulge"),
+        );
+        if let Some(d) = s.distance_mpc.as_mut() {
+            ui.add(
+                egui::Slider::new(d, 0.5..=100.0)
+                    .logarithmic(true)
+                    .text("Distance [Mpc]"),
+            );
+        }
+        if let Some(i) = s.inclination_deg.as_mut() {
+            ui.add(egui::Slider::new(i, 10.0..=90.0).text("Inclination [deg]"));
+        }
+        if s.model == HaloModel::Sidm {
+            ui.add(egui::Slider::new(&mut s.age_gyr, 1.0..=13.5).text("Halo age [Gyr]"));
+        }
+        if s != before {
+            commands.push(Command::Settings(s.clone()));
+        }
+        ui.separator();
+        match (&self.runtime.live, &self.runtime.live_error) {
+            (Some(curve), _) => {
+                ui.label(format!(
+                    "χ²/ν = {:.2} (χ² = {:.1})",
+                    curve.chi2_nu, curve.chi2
+                ));
+                if let (Some(v), Some(rho0), Some(sigma0)) =
+                    (curve.v_rel_kms, curve.rho0_msun_kpc3, curve.sigma0_kms)
+                {
+                    ui.label(format!(
+                        "core: ρ0 = {rho0:.3e} Msun/kpc³, σ0 = {sigma0:.1} km/s"
+                    ));
+                    ui.label(format!("<v_rel> = {v:.1} km/s"));
+                }
+                if let Some(r1) = curve.components.r1_kpc {
+                    ui.label(format!("r1 = {r1:.2} kpc"));
+                }
+            }
+            (None, Some(error)) => {
+                ui.label(
+                    RichText::new(format!("No curve for these values: {error}"))
+                        .color(theme::WARNING),
+                );
+                ui.label(RichText::new("The last valid curve is shown dimmed.").small());
+            }
+            _ => {}
+        }
+    }
+
+    pub(crate) fn fit_ui(&self, ui: &mut egui::Ui, commands: &mut Vec<Command>) {
+        ui.heading("Fit");
+        let Some(settings) = self.current_settings() else {
+            return;
+        };
+        let name = self.session.selected.clone().unwrap_or_default();
+        match &self.runtime.fit {
+            Some(job) => {
+                let (text, fraction) = match &job.latest {
+                    Some((model, p)) => (
+                        format!(
+                            "{} ({}): step {} of at most {}, τ {}",
+                            job.galaxy,
+                            model.name(),
+                            p.step,
+                            p.max_steps,
+                            p.tau_max.map_or("-".into(), |t| format!("{t:.0}"))
+                        ),
+                        p.target_steps
+                            .map_or(p.step as f32 / p.max_steps as f32, |t| {
+                                p.step as f32 / t.max(1) as f32
+                            }),
+                    ),
+                    None => ("finding the best fit…".to_string(), 0.0),
+                };
+                ui.add(egui::ProgressBar::new(fraction.min(1.0)).text(text));
+                if ui.button("Cancel fit").clicked() {
+                    commands.push(Command::CancelFit);
+                }
+            }
+            None => {
+                ui.horizontal(|ui| {
+                    if ui
+                        .button("Fit")
+                        .on_hover_text("Sample the posterior of the chosen model")
+                        .clicked()
+                    {
+                        commands.push(Command::Fit(vec![settings.model]));
+                    }
+                    if ui
+                        .button("Compare models")
+                        .on_hover_text("Fit SIDM, NFW and Burkert halos")
+                        .clicked()
+                    {
+                        commands.push(Command::Fit(vec![
+                            HaloModel::Sidm,
+                            HaloModel::Nfw,
+                            HaloModel::Burkert,
+                        ]));
+                    }
+                });
+            }
+        }
+        if let Some(result) = self.session.result(&name, settings.model) {
+            ui.separator();
+            ui.label(
+                RichText::new(format!("{} fit of {name}", model_label(settings.model))).strong(),
+            );
+            if let Some(s) = result.sigma_m_cm2_g {
+                match s.upper95 {
+                    Some(limit) => ui.label(format!("σ/m < {limit:.3} cm²/g (95% upper limit)")),
+                    None => ui.label(format!(
+                        "σ/m = {:.3} (+{:.3} / −{:.3}) cm²/g",
+                        s.median,
+                        s.p84 - s.median,
+                        s.median - s.p16
+                    )),
+                };
+            }
+            if let Some(v) = result.v_rel_kms {
+                ui.label(format!(
+                    "<v_rel> = {:.1} (+{:.1} / −{:.1}) km/s",
+                    v.median,
+                    v.p84 - v.median,
+                    v.median - v.p16
+                ));
+            }
+            ui.label(format!("χ²/ν = {:.2}", result.chi2_nu));
+            if result.converged {
+                ui.label(format!("converged (τ = {:.0} steps)", result.tau_max));
+            } else {
+                ui.label(
+                    RichText::new("NOT converged: do not trust these intervals")
+                        .color(theme::ERROR),
+                );
+            }
+            if ui.button("Use best fit").clicked() {
+                commands.push(Command::UseBestFit);
+            }
+        }
+        let rows: Vec<_> = HaloModel::ALL
+            .iter()
+            .filter_map(|m| self.session.result(&name, *m))
+            .collect();
+        if !rows.is_empty() {
+            ui.separator();
+            ui.label(RichText::new("Model comparison").strong());
+            egui::Grid::new("comparison").striped(true).show(ui, |ui| {
+                for h in ["Model", "χ²/ν", "AIC", "BIC"] {
+                    ui.label(h);
+                }
+                ui.end_row();
+                for r in rows {
+                    ui.label(&r.model);
+                    ui.label(format!("{:.2}", r.chi2_nu));
+                    ui.label(format!("{:.1}", r.aic));
+                    ui.label(format!("{:.1}", r.bic));
+                    ui.end_row();
+                }
+            });
+        }
+        if let Some(result) = self.runtime.fits.get(&(name.clone(), settings.model)) {
+            ui.separator();
+            ui.label(RichText::new("Posterior").strong());
+            let kept: Vec<(usize, usize)> =
+                result.chain.kept(result.burn_in, result.thin).collect();
+            for (p, parameter) in result.parameters.iter().enumerate() {
+                let values: Vec<f64> = kept
+                    .iter()
+                    .map(|&(s, w)| result.chain.position(s, w, p))
+                    .collect();
+                histogram_ui(ui, &parameter.name, &values);
+            }
+        }
+    }
+
+    pub(crate) fn curve_ui(&self, ui: &mut egui::Ui) {
+        let (curve, dim) = match (&self.runtime.live, &self.runtime.last_valid) {
+            (Some(c), _) => (c, false),
+            (None, Some(c)) => (c, true),
+            _ => {
+                ui.label("No curve to show.");
+                return;
+            }
+        };
+        let shade = |c: Color32| if dim { theme::dimmed(c) } else { c };
+        let c = &curve.components;
+        let link = egui::Id::unique("caldera radius axis");
+        let height = ui.available_height();
+        let pairs = |r: &[f64], v: &[f64]| -> Vec<[f64; 2]> {
+            r.iter().zip(v).map(|(&x, &y)| [x, y]).collect()
+        };
+        Plot::new("rotation curve")
+            .height(height * 0.68)
+            .legend(Legend::default())
+            .x_axis_label("Radius [kpc]")
+            .y_axis_label("Circular velocity [km/s]")
+            .link_axis(link, [true, false])
+            .include_y(0.0)
+            .show(ui, |plot| {
+                for (k, ((&r, &v), &e)) in c
+                    .radius_kpc
+                    .iter()
+                    .zip(&c.v_obs_kms)
+                    .zip(&c.v_err_kms)
+                    .enumerate()
+                {
+                    plot.line(
+                        Line::new("observed", PlotPoints::from(vec![[r, v - e], [r, v + e]]))
+                            .color(shade(theme::DATA))
+                            .id(("error bar", k)),
+                    );
+                }
+                plot.points(
+                    Points::new(
+                        "observed",
+                        PlotPoints::from(pairs(&c.radius_kpc, &c.v_obs_kms)),
+                    )
+                    .color(shade(theme::DATA))
+                    .radius(3.5)
+                    .filled(true)
+                    .id("observed"),
+                );
+                plot.line(
+                    Line::new("gas", PlotPoints::from(pairs(&c.radius_kpc, &c.v_gas_kms)))
+                        .color(shade(theme::GAS))
+                        .id("gas"),
+                );
+                plot.line(
+                    Line::new(
+                        "stellar disk",
+                        PlotPoints::from(pairs(&c.radius_kpc, &c.v_disk_kms)),
+                    )
+                    .color(shade(theme::DISK))
+                    .id("disk"),
+                );
+                if let Some(bulge) = &c.v_bulge_kms {
+                    plot.line(
+                        Line::new("bulge", PlotPoints::from(pairs(&c.radius_kpc, bulge)))
+                            .color(shade(theme::BULGE))
+                            .id("bulge"),
+                    );
+                }
+                plot.line(
+                    Line::new(
+                        "dark halo",
+                        PlotPoints::from(pairs(&c.fine_radius_kpc, &c.v_halo_fine_kms)),
+                    )
+                    .color(shade(theme::HALO))
+                    .width(2.5)
+                    .id("halo"),
+                );
+                plot.line(
+                    Line::new(
+                        "total",
+                        PlotPoints::from(pairs(&c.fine_radius_kpc, &c.v_total_fine_kms)),
+                    )
+                    .color(shade(theme::TOTAL))
+                    .width(3.0)
+                    .id("total"),
+                );
+                if let Some(r1) = c.r1_kpc {
+                    plot.vline(VLine::new("r1", r1).color(shade(theme::MARKER)).id("r1"));
+                }
+                if let Some(rc) = c.core_radius_kpc {
+                    plot.vline(
+                        VLine::new("core radius", rc)
+                            .color(shade(theme::MARKER))
+                            .style(egui_plot::LineStyle::dashed_dense())
+                            .id("core"),
+                    );
+                }
+            });
+        let residuals: Vec<[f64; 2]> = c
+            .radius_kpc
+            .iter()
+            .zip(c.v_obs_kms.iter().zip(&c.v_model_kms).zip(&c.v_err_kms))
+            .map(|(&r, ((&o, &m), &e))| [r, (o - m) / e])
+            .collect();
+        Plot::new("residuals")
+            .height(ui.available_height())
+            .x_axis_label("Radius [kpc]")
+            .y_axis_label("(V_obs − V_model)/σ")
+            .link_axis(link, [true, false])
+            .include_y(-3.0)
+            .include_y(3.0)
+            .show(ui, |plot| {
+                plot.points(
+                    Points::new("residual", PlotPoints::from(residuals))
+                        .color(shade(theme::DATA))
+                        .radius(3.5)
+                        .filled(true)
+                        .id("residuals"),
+                );
+            });
+    }
+
+    pub(crate) fn population_ui(&self, ui: &mut egui::Ui, commands: &mut Vec<Command>) {
+        ui.label("σ/m against <v_rel> for every galaxy fitted with SIDM (log axes). Click a point to open its galaxy.");
+        let names = self.galaxy_names();
+        let mut points: Vec<(usize, [f64; 2])> = Vec::new();
+        let response = Plot::new("population")
+            .x_axis_label("<v_rel> [km/s]")
+            .y_axis_label("σ/m [cm²/g]")
+            .x_axis_formatter(power_of_ten)
+            .y_axis_formatter(power_of_ten)
+            .show(ui, |plot| {
+                for r in self
+                    .session
+                    .results
+                    .iter()
+                    .filter(|r| r.model == HaloModel::Sidm.name())
+                {
+                    let (Some(v), Some(s)) = (r.v_rel_kms, r.sigma_m_cm2_g) else {
+                        continue;
+                    };
+                    let Some(index) = names.iter().position(|n| *n == r.galaxy) else {
+                        continue;
+                    };
+                    let x = v.median.log10();
+                    let id = ("population", index);
+                    plot.line(
+                        Line::new(
+                            &r.galaxy,
+                            PlotPoints::from(vec![
+                                [v.p16.log10(), s.median.log10()],
+                                [v.p84.log10(), s.median.log10()],
+                            ]),
+                        )
+                        .color(theme::DATA)
+                        .id((id, "x")),
+                    );
+                    match s.upper95 {
+                        Some(limit) => {
+                            let y = limit.log10();
+                            plot.line(
+                                Line::new(&r.galaxy, PlotPoints::from(vec![[x, y], [x, y - 0.4]]))
+                                    .color(theme::LIMIT)
+                                    .id((id, "limit")),
+                            );
+                            plot.points(
+                                Points::new(&r.galaxy, PlotPoints::from(vec![[x, y - 0.4]]))
+                                    .shape(MarkerShape::Down)
+                                    .radius(6.0)
+                                    .color(theme::LIMIT)
+                                    .id((id, "arrow")),
+                            );
+                            points.push((index, [x, y]));
+                        }
+                        None => {
+                            let y = s.median.log10();
+                            plot.line(
+                                Line::new(
+                                    &r.galaxy,
+                                    PlotPoints::from(vec![[x, s.p16.log10()], [x, s.p84.log10()]]),
+                                )
+                                .color(theme::DATA)
+                                .id((id, "y")),
+                            );
+                            plot.points(
+                                Points::new(&r.galaxy, PlotPoints::from(vec![[x, y]]))
+                                    .radius(5.0)
+                                    .filled(true)
+                                    .color(theme::DATA)
+                                    .id((id, "point")),
+                            );
+                            points.push((index, [x, y]));
+                        }
+                    }
+                }
+                plot.pointer_coordinate()
+            });
+        if response.response.clicked()
+            && let Some(pointer) = response.inner
+            && let Some((index, _)) = points.iter().min_by(|a, b| {
+                let d = |p: &[f64; 2]| (p[0] - pointer.x).powi(2) + (p[1] - pointer.y).powi(2);
+                d(&a.1).total_cmp(&d(&b.1))
+            })
+        {
+            commands.push(Command::Select(*index));
+        }
+    }
+
+    pub(crate) fn mapping_ui(&mut self, ctx: &egui::Context, commands: &mut Vec<Command>) {
+        let Some(step) = &mut self.runtime.mapping else {
+            return;
+        };
+        let mut open = true;
+        egui::Window::new("Column mapping")
+            .open(&mut open)
+            .show(ctx, |ui| {
+                ui.label(format!(
+                    "{} could not be read as it is:",
+                    step.path.display()
+                ));
+                ui.label(RichText::new(&step.message).color(theme::WARNING));
+                ui.label(
+                    "Name the column that holds each quantity (leave empty to keep the guess):",
+                );
+                for role in caldera_data::ColumnRole::ALL {
+                    let mut text = step.roles.get(&role).cloned().unwrap_or_default();
+                    ui.horizontal(|ui| {
+                        ui.label(role.describe());
+                        ui.add(egui::TextEdit::singleline(&mut text).desired_width(120.0));
+                    });
+                    step.roles.insert(role, text);
+                }
+                if ui.button("Load with this mapping").clicked() {
+                    commands.push(Command::LoadWithMapping);
+                }
+            });
+        if !open {
+            self.runtime.mapping = None;
+        }
+    }
+
+    pub(crate) fn quit_ui(&mut self, ctx: &egui::Context, commands: &mut Vec<Command>) {
+        if !self.runtime.confirm_quit {
+            return;
+        }
+        egui::Window::new("Unsaved changes")
+            .collapsible(false)
+            .resizable(false)
+            .show(ctx, |ui| {
+                ui.label("The session has changes that are not saved.");
+                ui.horizontal(|ui| {
+                    if ui.button("Save and quit").clicked() {
+                        commands.push(Command::SaveAndQuit);
+                    }
+                    if ui.button("Quit without saving").clicked() {
+                        commands.push(Command::QuitWithoutSaving);
+                    }
+                    if ui.button("Keep working").clicked() {
+                        self.runtime.confirm_quit = false;
+                    }
+                });
+            });
+    }
+}
+
+fn model_label(model: HaloModel) -> &'static str {
+    match model {
+        HaloModel::Sidm => "SIDM (isothermal Jeans)",
+        HaloModel::Nfw => "NFW",
+        HaloModel::Burkert => "Burkert",
+        HaloModel::PseudoIsothermal => "Pseudo-isothermal",
+    }
+}
+
+fn histogram_ui(ui: &mut egui::Ui, name: &str, values: &[f64]) {
+    let finite: Vec<f64> = values.iter().copied().filter(|v| v.is_finite()).collect();
+    let (lo, hi) = finite
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &v| {
+            (a.min(v), b.max(v))
+        });
+    if finite.is_empty() || lo >= hi {
+        return;
+    }
+    let bins = 30;
+    let width = (hi - lo) / bins as f64;
+    let mut counts = vec![0usize; bins];
+    for v in &finite {
+        counts[(((v - lo) / width) as usize).min(bins - 1)] += 1;
+    }
+    let bars: Vec<Bar> = counts
+        .iter()
+        .enumerate()
+        .map(|(k, &c)| Bar::new(lo + width * (k as f64 + 0.5), c as f64).width(width))
+        .collect();
+    Plot::new(("posterior", name))
+        .height(90.0)
+        .show_axes([true, false])
+        .x_axis_label(name.to_string())
+        .allow_drag(false)
+        .allow_zoom(false)
+        .show(ui, |plot| {
+            plot.bar_chart(
+                BarChart::new(name, bars)
+                    .color(theme::POSTERIOR)
+                    .id(("histogram", name)),
+            );
+        });
+}

@@ -1,0 +1,38 @@
+//! Every colour the app uses, in one place: the figure palette of the report crate as egui
+//! colours, so the window and the exported figures agree.
+
+use caldera_report::theme::{self as figure, rgb};
+use egui::Color32;
+
+const fn from_figure((r, g, b): (u8, u8, u8)) -> Color32 {
+    Color32::from_rgb(r, g, b)
+}
+
+/// Observed points and error bars.
+pub const DATA: Color32 = from_figure(rgb(figure::DATA));
+/// Gas contribution.
+pub const GAS: Color32 = from_figure(rgb(figure::GAS));
+/// Stellar-disk contribution.
+pub const DISK: Color32 = from_figure(rgb(figure::DISK));
+/// Bulge contribution.
+pub const BULGE: Color32 = from_figure(rgb(figure::BULGE));
+/// Dark halo.
+pub const HALO: Color32 = from_figure(rgb(figure::HALO));
+/// Total model.
+pub const TOTAL: Color32 = from_figure(rgb(figure::TOTAL));
+/// r1 and core-radius markers.
+pub const MARKER: Color32 = from_figure(rgb(figure::MARKER));
+/// Posterior histograms.
+pub const POSTERIOR: Color32 = from_figure(rgb(figure::POSTERIOR));
+/// Upper limits in the population view.
+pub const LIMIT: Color32 = from_figure(rgb(figure::LIMIT));
+/// Warnings.
+pub const WARNING: Color32 = Color32::from_rgb(200, 120, 20);
+/// Failures.
+pub const ERROR: Color32 = Color32::from_rgb(200, 40, 40);
+
+/// The dimmed version of a colour (the last valid curve while no solution exists).
+#[must_use]
+pub fn dimmed(c: Color32) -> Color32 {
+    c.gamma_multiply(0.3)
+}
