@@ -12,7 +12,7 @@ fi
 python3 -c "import PIL" 2>/dev/null || python3 -m pip install --quiet pillow
 (cd "$root" && cargo build --release --quiet --bin caldera-app)
 display=":97"
-Xvfb "$display" -screen 0 1440x900x24 >/dev/null 2>&1 &
+Xvfb "$display" -screen 0 1400x860x24 >/dev/null 2>&1 &
 xvfb=$!
 trap 'kill "$app" "$xvfb" 2>/dev/null || true' EXIT
 sleep 2

@@ -30,18 +30,18 @@ fn benches(c: &mut Criterion) {
         let sweep: Vec<f64> = (0..60)
             .map(|i| 0.1 * 300f64.powf(f64::from(i) / 59.0))
             .collect();
+        // As in the app, each step of the drag follows the previous step's solution.
         let mut worst = 0.0f64;
         let mut total = 0.0;
+        let mut previous = None;
         for &sigma in &sweep {
             let start = Instant::now();
-            let _ = live_curve(
-                &table,
-                &GalaxySettings {
-                    sigma_m_cm2_g: sigma,
-                    ..settings.clone()
-                },
-                &cosmology,
-            );
+            let changed = GalaxySettings {
+                sigma_m_cm2_g: sigma,
+                ..settings.clone()
+            };
+            let curve = live_curve(&table, &changed, &cosmology, previous);
+            previous = curve.ok().and_then(|c| c.rho0_msun_kpc3.zip(c.sigma0_kms));
             let ms = start.elapsed().as_secs_f64() * 1e3;
             worst = worst.max(ms);
             total += ms;
@@ -52,19 +52,19 @@ fn benches(c: &mut Criterion) {
             total / sweep.len() as f64,
             worst
         );
-        let mut k = 0usize;
-        c.bench_function(&format!("live_curve/{file}"), |b| {
-            b.iter(|| {
-                k = (k + 1) % sweep.len();
-                live_curve(
-                    &table,
-                    &GalaxySettings {
-                        sigma_m_cm2_g: black_box(sweep[k]),
-                        ..settings.clone()
-                    },
-                    &cosmology,
-                )
-            });
+        // One drag step (σ/m from 1 to 1.02 cm²/g) following the previous solution, and the same
+        // change solved afresh.
+        let base = live_curve(&table, &settings, &cosmology, None).expect("a curve");
+        let guess = base.rho0_msun_kpc3.zip(base.sigma0_kms);
+        let step = GalaxySettings {
+            sigma_m_cm2_g: 1.02,
+            ..settings.clone()
+        };
+        c.bench_function(&format!("live_curve_drag_step/{file}"), |b| {
+            b.iter(|| live_curve(&table, black_box(&step), &cosmology, guess));
+        });
+        c.bench_function(&format!("live_curve_fresh/{file}"), |b| {
+            b.iter(|| live_curve(&table, black_box(&step), &cosmology, None));
         });
     }
 }

@@ -137,7 +137,9 @@ pub struct CalderaApp {
 impl CalderaApp {
     /// Creates the app and opens the start-up session or catalogue.
     #[must_use]
-    pub fn new(_cc: &eframe::CreationContext<'_>, options: AppOptions) -> Self {
+    pub fn new(cc: &eframe::CreationContext<'_>, options: AppOptions) -> Self {
+        // A light theme, so the curves use the same colours as the exported (white) figures.
+        cc.egui_ctx.set_theme(egui::Theme::Light);
         Self::with_options(options)
     }
 
@@ -349,7 +351,12 @@ impl CalderaApp {
         let Ok(table) = &self.runtime.galaxies[i].table else {
             return;
         };
-        match live_curve(table, &settings, &self.session.fit.cosmology) {
+        // Follow the solution on screen while the same galaxy's controls move.
+        let previous = match (&self.runtime.live_key, &self.runtime.live) {
+            (Some((k, _)), Some(curve)) if *k == i => curve.rho0_msun_kpc3.zip(curve.sigma0_kms),
+            _ => None,
+        };
+        match live_curve(table, &settings, &self.session.fit.cosmology, previous) {
             Ok(curve) => {
                 self.runtime.last_valid = Some(curve.clone());
                 self.runtime.live = Some(curve);

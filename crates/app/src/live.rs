@@ -44,11 +44,14 @@ fn live_priors() -> Priors {
 }
 
 /// Builds the curve for `settings` on `table`. The error names why no curve exists (for
-/// example, no isothermal core matches the halo).
+/// example, no isothermal core matches the halo). `previous`, the (ρ0, σ0) of the curve drawn a
+/// moment ago, lets a drag follow the solution by Newton's method instead of searching afresh
+/// (a full search runs when that fails or when there is no previous solution).
 pub fn live_curve(
     table: &GalaxyTable,
     settings: &GalaxySettings,
     cosmology: &Cosmology,
+    previous: Option<(f64, f64)>,
 ) -> Result<LiveCurve, String> {
     let model = GalaxyModel::new(
         table,
@@ -89,8 +92,13 @@ pub fn live_curve(
             };
             let nfw = Nfw::from_v200_c200(settings.v200_kms, settings.c200, cosmology)
                 .map_err(|e| e.to_string())?;
-            let halo =
-                sidm::halo_first(&setup, &nfw, Branch::LowestDensity).map_err(|e| e.to_string())?;
+            let followed =
+                previous.and_then(|guess| sidm::halo_first_near(&setup, &nfw, guess).ok());
+            let halo = match followed {
+                Some(halo) => halo,
+                None => sidm::halo_first(&setup, &nfw, Branch::LowestDensity)
+                    .map_err(|e| e.to_string())?,
+            };
             theta[0] = halo.rho0_msun_kpc3().log10();
             theta[1] = halo.sigma0_kms().log10();
             theta[2] = settings.sigma_m_cm2_g.log10();

@@ -492,6 +492,7 @@ impl CalderaApp {
             .x_axis_label("Radius [kpc]")
             .y_axis_label("(V_obs − V_model)/σ")
             .link_axis(link, [true, false])
+            .include_x(0.0)
             .include_y(-3.0)
             .include_y(3.0)
             .show(ui, |plot| {

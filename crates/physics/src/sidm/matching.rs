@@ -544,6 +544,12 @@ fn partners_of(setup: &SidmSetup, nfw: &Nfw, found: &[(f64, f64)]) -> Vec<(f64, 
     partners
 }
 
+/// Newton's method with the full baryons from `guess` = (ρ0, σ0).
+pub(super) fn polish(setup: &SidmSetup, nfw: &Nfw, guess: (f64, f64)) -> Option<(f64, f64)> {
+    let u = newton(setup, nfw, setup.baryons, [guess.0.ln(), guess.1.ln()], 12)?;
+    Some((u[0].exp(), u[1].exp()))
+}
+
 /// Follows a baryon-free solution while the baryons are switched on (mass × λ, λ: 0 → 1),
 /// halving the λ step when Newton fails. Returns (ρ0, σ0) with the full baryons, or None when
 /// the branch ends (two solutions merge and vanish) before λ = 1.

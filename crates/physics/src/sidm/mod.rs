@@ -189,6 +189,25 @@ pub fn halo_first(setup: &SidmSetup, nfw: &Nfw, branch: Branch) -> Result<SidmHa
     Ok(halo)
 }
 
+/// Halo-first solve started from a nearby solution `guess` = (ρ0 Msun/kpc³, σ0 km/s), e.g. the
+/// one found a moment ago before a control moved: Newton's method with the full baryons, a few
+/// integrations instead of a global search. It follows the guess's branch, so it reports no
+/// branch index; call [`halo_first`] for the guaranteed lowest-density solution.
+pub fn halo_first_near(
+    setup: &SidmSetup,
+    nfw: &Nfw,
+    guess: (f64, f64),
+) -> Result<SidmHalo, PhysicsError> {
+    validate_setup(setup)?;
+    require_positive("central density guess [Msun/kpc3]", guess.0)?;
+    require_positive("dispersion guess [km/s]", guess.1)?;
+    let (rho0, sigma0) =
+        matching::polish(setup, nfw, guess).ok_or_else(|| PhysicsError::NoSolution {
+            reason: "Newton's method from the previous solution did not converge".into(),
+        })?;
+    core_first(setup, rho0, sigma0)
+}
+
 /// Every halo-first solution found, in order of increasing central density.
 pub fn halo_first_all(setup: &SidmSetup, nfw: &Nfw) -> Result<Vec<SidmHalo>, PhysicsError> {
     validate_setup(setup)?;

@@ -226,3 +226,25 @@ fn curve_is_smooth_in_the_parameters() {
         "finite-difference derivatives disagree by {worst:e}"
     );
 }
+
+#[test]
+fn halo_first_near_follows_a_nearby_solution() {
+    let bulge = Hernquist::new(1e9, 2.0).expect("valid");
+    let s = setup(3.0, &bulge);
+    let cosmo = Cosmology::default();
+    let nfw = Nfw::from_m200_c200(1e11, 10.0, &cosmo).expect("valid");
+    let full = halo_first(&s, &nfw, Branch::LowestDensity).expect("solves");
+    // A slightly different halo, started from the first solution, lands on the same solution a
+    // full search finds.
+    let moved = Nfw::from_m200_c200(1.05e11, 10.2, &cosmo).expect("valid");
+    let near =
+        halo_first_near(&s, &moved, (full.rho0_msun_kpc3(), full.sigma0_kms())).expect("solves");
+    let again = halo_first(&s, &moved, Branch::LowestDensity).expect("solves");
+    assert_relative_eq!(
+        near.rho0_msun_kpc3(),
+        again.rho0_msun_kpc3(),
+        max_relative = 1e-7
+    );
+    assert_relative_eq!(near.sigma0_kms(), again.sigma0_kms(), max_relative = 1e-7);
+    assert_eq!(near.summary().branch, None);
+}
