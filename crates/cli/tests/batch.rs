@@ -1,20 +1,11 @@
 //! Catalogue runs end to end: outputs, resuming, sharding and merging (bit for bit), and a clean
 //! stop on Ctrl-C (SIGINT) that keeps finished results.
 
+mod common;
+
+use common::caldera;
 use std::path::{Path, PathBuf};
 use std::process::Command;
-
-fn caldera(args: &[&str]) -> (i32, String, String) {
-    let output = Command::new(env!("CARGO_BIN_EXE_caldera"))
-        .args(args)
-        .output()
-        .expect("the caldera binary runs");
-    (
-        output.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&output.stdout).into_owned(),
-        String::from_utf8_lossy(&output.stderr).into_owned(),
-    )
-}
 
 fn temp_dir(tag: &str) -> PathBuf {
     let dir = std::env::temp_dir().join(format!("caldera-batch-{tag}-{}", std::process::id()));

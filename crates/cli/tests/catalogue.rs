@@ -1,21 +1,11 @@
 //! `caldera check` and `caldera mock` end to end.
 
+mod common;
+
+use common::caldera;
 use std::path::{Path, PathBuf};
-use std::process::Command;
 
 use serde_json::Value;
-
-fn caldera(args: &[&str]) -> (i32, String, String) {
-    let output = Command::new(env!("CARGO_BIN_EXE_caldera"))
-        .args(args)
-        .output()
-        .expect("the caldera binary runs");
-    (
-        output.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&output.stdout).into_owned(),
-        String::from_utf8_lossy(&output.stderr).into_owned(),
-    )
-}
 
 fn demo_dir() -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join("../../demo_galaxies")

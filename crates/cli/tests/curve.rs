@@ -1,20 +1,10 @@
 //! `caldera curve` end to end: the JSON it prints, its failures and exit codes.
 
-use std::process::Command;
+mod common;
+
+use common::caldera;
 
 use serde_json::Value;
-
-fn caldera(args: &[&str]) -> (i32, String, String) {
-    let output = Command::new(env!("CARGO_BIN_EXE_caldera"))
-        .args(args)
-        .output()
-        .expect("the caldera binary runs");
-    (
-        output.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&output.stdout).into_owned(),
-        String::from_utf8_lossy(&output.stderr).into_owned(),
-    )
-}
 
 fn json(args: &[&str]) -> Value {
     let (code, stdout, stderr) = caldera(args);
