@@ -64,6 +64,10 @@ pub struct MockArgs {
     /// σ/m for SIDM halos, cm²/g.
     #[arg(long, value_name = "CM2/G")]
     pub cross_section: Option<f64>,
+    /// Make σ/m velocity-dependent: σ(v)/m = σ0/m (1 + v²/w²)⁻² with σ0/m = --cross-section
+    /// and this turnover velocity w, km/s.
+    #[arg(long, value_name = "KM/S")]
+    pub fall_off_w: Option<f64>,
     /// Halo-first solution (0 = lowest density).
     #[arg(long, default_value_t = 0)]
     pub branch: usize,
@@ -202,6 +206,13 @@ impl MockArgs {
             inclination_deg: self.inclination,
             inclination_err_deg: self.inclination_err,
             notes: self.notes.clone(),
+            velocity_dependence: match self.fall_off_w {
+                None => None,
+                Some(w) => Some(caldera_physics::CrossSection::fall_off(
+                    need(self.cross_section, "--cross-section", "sidm")?,
+                    w,
+                )?),
+            },
         })
     }
 }

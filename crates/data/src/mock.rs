@@ -85,6 +85,9 @@ pub struct MockSpec {
     pub inclination_deg: f64,
     pub inclination_err_deg: f64,
     pub notes: String,
+    /// A velocity-dependent σ(v)/m for SIDM halos, replacing the halo's constant σ/m.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub velocity_dependence: Option<CrossSection>,
 }
 
 /// The true values behind a mock table (written as its truth file).
@@ -233,7 +236,10 @@ pub fn generate(spec: &MockSpec) -> Result<(GalaxyTable, MockTruth), MockError> 
     let cosmology = Cosmology::with_hubble(spec.hubble_kms_mpc)?;
     let sidm_setup = |sigma_m: f64| -> Result<SidmSetup<'_>, PhysicsError> {
         Ok(SidmSetup {
-            cross_section: CrossSection::constant(sigma_m)?,
+            cross_section: match spec.velocity_dependence {
+                Some(model) => model,
+                None => CrossSection::constant(sigma_m)?,
+            },
             age_gyr: spec.age_gyr,
             baryons: &baryons,
             cosmology,
@@ -356,6 +362,7 @@ mod tests {
             inclination_deg: 60.0,
             inclination_err_deg: 4.0,
             notes: String::new(),
+            velocity_dependence: None,
         }
     }
 
@@ -400,6 +407,37 @@ mod tests {
         let r = table.radius_kpc[5];
         let v_star = stars.v_squared_kms2(r).sqrt();
         assert!((table.v_disk_kms[5] * spec.upsilon_disk.sqrt() - v_star).abs() < 1e-9);
+    }
+
+    #[test]
+    fn velocity_dependent_cross_sections_set_the_core() {
+        // The same halo with σ(v)/m = 3 (1 + v²/w²)⁻² cm²/g scatters less than with 3 cm²/g at
+        // the core's ⟨v_rel⟩, so its core is smaller.
+        let constant = generate(&MockSpec {
+            halo: MockHalo::SidmHaloFirst {
+                v200_kms: 50.0,
+                c200: 14.0,
+                sigma_m_cm2_g: 3.0,
+                branch: 0,
+            },
+            ..dwarf_spec()
+        })
+        .expect("generates");
+        let falling = generate(&MockSpec {
+            halo: MockHalo::SidmHaloFirst {
+                v200_kms: 50.0,
+                c200: 14.0,
+                sigma_m_cm2_g: 3.0,
+                branch: 0,
+            },
+            velocity_dependence: Some(CrossSection::fall_off(3.0, 60.0).expect("valid")),
+            ..dwarf_spec()
+        })
+        .expect("generates");
+        let r1 = |t: &MockTruth| t.sidm.expect("SIDM").r1_kpc;
+        assert!(r1(&falling.1) < r1(&constant.1));
+        let json = serde_json::to_string(&falling.1.spec).expect("serialises");
+        assert!(json.contains("FallOff"), "{json}");
     }
 
     #[test]

@@ -2,7 +2,11 @@
 
 use crate::PhysicsError;
 use crate::error::{require_non_negative, require_positive};
-use crate::units::{cm2_per_g_to_kpc2_per_msun, gyr_to_kpc_per_kms};
+use crate::roots::brent;
+use crate::units::{
+    CM2_PER_MB, GRAM_PER_GEV, HBAR_C_SQUARED_MB_GEV2, SPEED_OF_LIGHT_KMS,
+    cm2_per_g_to_kpc2_per_msun, gyr_to_kpc_per_kms,
+};
 
 /// Mean relative speed of two particles drawn from a Maxwellian with 1D dispersion σ0:
 /// ⟨v_rel⟩ = 4σ0/√π, km/s.
@@ -11,15 +15,44 @@ pub fn mean_relative_speed_kms(sigma0_kms: f64) -> f64 {
     4.0 * sigma0_kms / std::f64::consts::PI.sqrt()
 }
 
-/// A dark-matter self-interaction cross-section per unit mass.
+/// A dark-matter self-interaction cross-section per unit mass, σ(v)/m, as a function of the
+/// relative speed v of the colliding pair.
 ///
-/// Only the velocity-independent case exists so far; velocity-dependent models enter here as
-/// further variants, and every caller goes through [`CrossSection::sigma_v_over_m`].
+/// Every caller goes through [`CrossSection::sigma_v_over_m`]: the Maxwellian average ⟨σ v⟩/m at
+/// the core's 1D dispersion σ0, which is what the rate condition of the SIDM halo uses.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize, serde::Deserialize)]
 #[non_exhaustive]
 pub enum CrossSection {
     /// σ/m independent of velocity, cm²/g.
     Constant { sigma_m_cm2_g: f64 },
+    /// A light-mediator-like fall-off, σ(v)/m = σ0/m · (1 + v²/w²)⁻² (common practice
+    /// parametrisation), with σ0/m in cm²/g and w in km/s.
+    FallOff { sigma0_cm2_g: f64, w_kms: f64 },
+    /// Yukawa potential in the Born regime, transfer cross-section (Feng, Kaplinghat & Yu 2010;
+    /// Tulin, Yu & Zurek 2013): σ_T = (8πα²/(m² v⁴)) [ln(1+R²) − R²/(1+R²)], R = m v / m_φ, v
+    /// in units of c; valid for α m / m_φ ≪ 1. Dark-matter mass in GeV, mediator mass in MeV.
+    Yukawa {
+        dm_mass_gev: f64,
+        mediator_mass_mev: f64,
+        alpha: f64,
+    },
+    /// An s-wave Breit–Wigner resonance (the idea of resonant SIDM, Chu, Garcia-Cely & Murayama
+    /// 2019; textbook non-relativistic form) plus a constant background:
+    /// σ = 64πγ² / (m² [(v² − v_R²)² + 4γ² v²]) + σ_bg, with a state of mass m_R = 2m(1 + δ), so
+    /// E_R = 2δm and v_R = 2√(2δ) (v in units of c; this δ convention), elastic width Γ = γ m v.
+    /// The factor 2 for identical bosons is not included. Dark-matter mass in GeV, background
+    /// in cm²/g.
+    Resonance {
+        dm_mass_gev: f64,
+        delta: f64,
+        gamma: f64,
+        background_cm2_g: f64,
+    },
+}
+
+/// Natural-unit cross-section (GeV⁻²) per dark-matter mass (GeV) in cm²/g.
+fn natural_per_mass_to_cm2_g(sigma_gev2: f64, mass_gev: f64) -> f64 {
+    sigma_gev2 * HBAR_C_SQUARED_MB_GEV2 * CM2_PER_MB / (mass_gev * GRAM_PER_GEV)
 }
 
 impl CrossSection {
@@ -30,13 +63,126 @@ impl CrossSection {
         })
     }
 
-    /// ⟨σ v_rel⟩/m averaged over a Maxwellian with 1D dispersion `sigma0_kms`,
-    /// in cm²/g · km/s. For a constant σ/m this is (σ/m) · 4σ0/√π.
+    /// σ(v)/m = σ0/m (1 + v²/w²)⁻² (σ0/m in cm²/g ≥ 0, w in km/s > 0).
+    pub fn fall_off(sigma0_cm2_g: f64, w_kms: f64) -> Result<Self, PhysicsError> {
+        Ok(Self::FallOff {
+            sigma0_cm2_g: require_non_negative("sigma0/m [cm2/g]", sigma0_cm2_g)?,
+            w_kms: require_positive("turnover velocity w [km/s]", w_kms)?,
+        })
+    }
+
+    /// The Born-regime Yukawa transfer cross-section (masses in GeV and MeV, coupling α).
+    pub fn yukawa(
+        dm_mass_gev: f64,
+        mediator_mass_mev: f64,
+        alpha: f64,
+    ) -> Result<Self, PhysicsError> {
+        Ok(Self::Yukawa {
+            dm_mass_gev: require_positive("dark-matter mass [GeV]", dm_mass_gev)?,
+            mediator_mass_mev: require_positive("mediator mass [MeV]", mediator_mass_mev)?,
+            alpha: require_non_negative("coupling alpha", alpha)?,
+        })
+    }
+
+    /// An s-wave resonance (dark-matter mass in GeV, fractional mass offset δ, width parameter
+    /// γ, background in cm²/g).
+    pub fn resonance(
+        dm_mass_gev: f64,
+        delta: f64,
+        gamma: f64,
+        background_cm2_g: f64,
+    ) -> Result<Self, PhysicsError> {
+        Ok(Self::Resonance {
+            dm_mass_gev: require_positive("dark-matter mass [GeV]", dm_mass_gev)?,
+            delta: require_positive("resonance mass offset delta", delta)?,
+            gamma: require_positive("resonance width gamma", gamma)?,
+            background_cm2_g: require_non_negative("background sigma/m [cm2/g]", background_cm2_g)?,
+        })
+    }
+
+    /// σ(v)/m at relative speed `v_kms`, cm²/g.
+    #[must_use]
+    pub fn sigma_m_cm2_g(&self, v_kms: f64) -> f64 {
+        match *self {
+            Self::Constant { sigma_m_cm2_g } => sigma_m_cm2_g,
+            Self::FallOff {
+                sigma0_cm2_g,
+                w_kms,
+            } => {
+                let s = 1.0 + (v_kms / w_kms).powi(2);
+                sigma0_cm2_g / (s * s)
+            }
+            Self::Yukawa {
+                dm_mass_gev,
+                mediator_mass_mev,
+                alpha,
+            } => {
+                let mediator_gev = mediator_mass_mev * 1e-3;
+                let v = v_kms / SPEED_OF_LIGHT_KMS;
+                let r = dm_mass_gev * v / mediator_gev;
+                let r2 = r * r;
+                // σ_T / (4πα² m² / m_φ⁴) = 2 [ln(1+R²) − R²/(1+R²)] / R⁴, by its series at small R.
+                let shape = if r2 < 1e-3 {
+                    1.0 - 4.0 / 3.0 * r2 + 1.5 * r2 * r2
+                } else {
+                    2.0 * (r2.ln_1p() - r2 / (1.0 + r2)) / (r2 * r2)
+                };
+                let sigma_gev2 =
+                    4.0 * std::f64::consts::PI * alpha * alpha * dm_mass_gev * dm_mass_gev
+                        / mediator_gev.powi(4)
+                        * shape;
+                natural_per_mass_to_cm2_g(sigma_gev2, dm_mass_gev)
+            }
+            Self::Resonance {
+                dm_mass_gev,
+                delta,
+                gamma,
+                background_cm2_g,
+            } => {
+                let v = v_kms / SPEED_OF_LIGHT_KMS;
+                let v_r2 = 8.0 * delta;
+                let denominator = (v * v - v_r2).powi(2) + 4.0 * gamma * gamma * v * v;
+                let sigma_gev2 = 64.0 * std::f64::consts::PI * gamma * gamma
+                    / (dm_mass_gev * dm_mass_gev * denominator);
+                natural_per_mass_to_cm2_g(sigma_gev2, dm_mass_gev) + background_cm2_g
+            }
+        }
+    }
+
+    /// Resonance speed v_R = 2√(2δ) c in km/s, for the resonance model.
+    #[must_use]
+    pub fn resonance_speed_kms(&self) -> Option<f64> {
+        match *self {
+            Self::Resonance { delta, .. } => Some(2.0 * (2.0 * delta).sqrt() * SPEED_OF_LIGHT_KMS),
+            _ => None,
+        }
+    }
+
+    /// ⟨σ v_rel⟩/m averaged over a Maxwellian with 1D dispersion `sigma0_kms`, in cm²/g · km/s:
+    /// ∫ σ(v) v f(v) dv with f(v) = v² e^{−v²/(4σ0²)} / (2√π σ0³); in x = v/(2σ0) this is
+    /// (8σ0/√π) ∫₀^∞ σ(2σ0 x) x³ e^{−x²} dx, integrated by adaptive Simpson quadrature (with
+    /// the resonance speed as a breakpoint). For a constant σ/m it is exactly (σ/m) · 4σ0/√π.
     #[must_use]
     pub fn sigma_v_over_m_cm2_g_kms(&self, sigma0_kms: f64) -> f64 {
-        match *self {
-            Self::Constant { sigma_m_cm2_g } => sigma_m_cm2_g * mean_relative_speed_kms(sigma0_kms),
+        if let Self::Constant { sigma_m_cm2_g } = *self {
+            return sigma_m_cm2_g * mean_relative_speed_kms(sigma0_kms);
         }
+        let integrand =
+            |x: f64| self.sigma_m_cm2_g(2.0 * sigma0_kms * x) * x * x * x * (-x * x).exp();
+        let upper = 9.0; // e^{-81}: negligible
+        let mut breaks = vec![0.0, 1.0, 2.0, 3.0, 4.5, upper];
+        if let Some(v_r) = self.resonance_speed_kms() {
+            let x_r = v_r / (2.0 * sigma0_kms);
+            if x_r > 0.0 && x_r < upper {
+                breaks.push(x_r);
+            }
+        }
+        breaks.sort_by(f64::total_cmp);
+        let integral: f64 = breaks
+            .windows(2)
+            .map(|w| adaptive_simpson(&integrand, w[0], w[1], 1e-13, 50))
+            .sum();
+        8.0 * sigma0_kms / std::f64::consts::PI.sqrt() * integral
     }
 
     /// ⟨σ v_rel⟩/m in the solver's units, kpc²/Msun · km/s.
@@ -52,21 +198,50 @@ impl CrossSection {
         1.0 / (self.sigma_v_over_m(sigma0_kms) * gyr_to_kpc_per_kms(age_gyr))
     }
 
-    /// The dispersion σ0 at which the rate condition puts ρ1 = `rho1_msun_kpc3`, km/s.
+    /// The dispersion σ0 at which the rate condition puts ρ1 = `rho1_msun_kpc3`, km/s. For a
+    /// constant σ/m the relation is exact and unique; for a velocity-dependent one, ρ1·⟨σv⟩/m·t
+    /// need not be monotone in σ0, and the lowest σ0 that satisfies it (between 0.01 and 10⁵ km/s)
+    /// is returned.
     pub fn sigma0_for_rate_density_kms(
         &self,
         rho1_msun_kpc3: f64,
         age_gyr: f64,
     ) -> Result<f64, PhysicsError> {
-        match *self {
-            Self::Constant { sigma_m_cm2_g } => {
-                require_positive("sigma/m [cm2/g]", sigma_m_cm2_g)?;
-                let per_sigma0 = cm2_per_g_to_kpc2_per_msun(sigma_m_cm2_g)
-                    * mean_relative_speed_kms(1.0)
-                    * gyr_to_kpc_per_kms(age_gyr);
-                Ok(1.0 / (per_sigma0 * rho1_msun_kpc3))
-            }
+        if let Self::Constant { sigma_m_cm2_g } = *self {
+            require_positive("sigma/m [cm2/g]", sigma_m_cm2_g)?;
+            let per_sigma0 = cm2_per_g_to_kpc2_per_msun(sigma_m_cm2_g)
+                * mean_relative_speed_kms(1.0)
+                * gyr_to_kpc_per_kms(age_gyr);
+            return Ok(1.0 / (per_sigma0 * rho1_msun_kpc3));
         }
+        let excess = |ln_sigma0: f64| -> f64 {
+            (rho1_msun_kpc3 * self.sigma_v_over_m(ln_sigma0.exp()) * gyr_to_kpc_per_kms(age_gyr))
+                .ln()
+        };
+        let (low, high) = ((0.01f64).ln(), (1e5f64).ln());
+        let steps = 120;
+        let mut previous = (low, excess(low));
+        for k in 1..=steps {
+            let x = low + (high - low) * f64::from(k) / f64::from(steps);
+            let here = (x, excess(x));
+            if previous.1.is_finite() && here.1.is_finite() && (previous.1 < 0.0) != (here.1 < 0.0)
+            {
+                return brent(
+                    excess,
+                    previous.0,
+                    here.0,
+                    1e-13,
+                    "dispersion from the rate condition",
+                )
+                .map(f64::exp);
+            }
+            previous = here;
+        }
+        Err(PhysicsError::NoSolution {
+            reason: format!(
+                "no core dispersion between 0.01 and 1e5 km/s makes each particle scatter once at {rho1_msun_kpc3:.3e} Msun/kpc3"
+            ),
+        })
     }
 
     /// True when the cross-section vanishes at every velocity (the collisionless limit).
@@ -74,8 +249,56 @@ impl CrossSection {
     pub fn is_zero(&self) -> bool {
         match *self {
             Self::Constant { sigma_m_cm2_g } => sigma_m_cm2_g == 0.0,
+            Self::FallOff { sigma0_cm2_g, .. } => sigma0_cm2_g == 0.0,
+            Self::Yukawa { alpha, .. } => alpha == 0.0,
+            Self::Resonance { .. } => false,
         }
     }
+}
+
+/// Adaptive Simpson quadrature of `f` on [a, b] to absolute tolerance `tolerance`.
+fn adaptive_simpson(f: &dyn Fn(f64) -> f64, a: f64, b: f64, tolerance: f64, depth: u32) -> f64 {
+    fn simpson(f: &dyn Fn(f64) -> f64, a: f64, fa: f64, b: f64, fb: f64) -> (f64, f64, f64) {
+        let m = 0.5 * (a + b);
+        let fm = f(m);
+        (m, fm, (b - a) / 6.0 * (fa + 4.0 * fm + fb))
+    }
+    fn recurse(
+        f: &dyn Fn(f64) -> f64,
+        (a, fa): (f64, f64),
+        (b, fb): (f64, f64),
+        (m, fm): (f64, f64),
+        whole: f64,
+        tolerance: f64,
+        depth: u32,
+    ) -> f64 {
+        let (lm, flm, left) = simpson(f, a, fa, m, fm);
+        let (rm, frm, right) = simpson(f, m, fm, b, fb);
+        let delta = left + right - whole;
+        if depth == 0 || delta.abs() <= 15.0 * tolerance {
+            return left + right + delta / 15.0;
+        }
+        recurse(
+            f,
+            (a, fa),
+            (m, fm),
+            (lm, flm),
+            left,
+            0.5 * tolerance,
+            depth - 1,
+        ) + recurse(
+            f,
+            (m, fm),
+            (b, fb),
+            (rm, frm),
+            right,
+            0.5 * tolerance,
+            depth - 1,
+        )
+    }
+    let (fa, fb) = (f(a), f(b));
+    let (m, fm, whole) = simpson(f, a, fa, b, fb);
+    recurse(f, (a, fa), (b, fb), (m, fm), whole, tolerance, depth)
 }
 
 #[cfg(test)]
@@ -97,6 +320,86 @@ mod tests {
             xs.sigma_v_over_m_cm2_g_kms(50.0),
             338.51375,
             max_relative = 1e-7
+        );
+    }
+
+    #[test]
+    fn fall_off_average_matches_scipy() {
+        // Reference: physics reference (scipy): σ(v)/m = 10/(1+v²/w²)² cm²/g, w = 100 km/s →
+        // ⟨σv⟩/m = 194.951, 217.433, 95.3631, 11.5241, 0.626798 cm²/g·km/s at σ0 = 10, 50, 100,
+        // 300, 1000 km/s. Tolerance 1e-5 (values quoted to six figures).
+        let xs = CrossSection::fall_off(10.0, 100.0).expect("valid");
+        for (sigma0, expected) in [
+            (10.0, 194.951),
+            (50.0, 217.433),
+            (100.0, 95.3631),
+            (300.0, 11.5241),
+            (1000.0, 0.626798),
+        ] {
+            assert_relative_eq!(
+                xs.sigma_v_over_m_cm2_g_kms(sigma0),
+                expected,
+                max_relative = 1e-5
+            );
+        }
+    }
+
+    #[test]
+    fn quadrature_reproduces_the_constant_closed_form() {
+        // A fall-off with w → ∞ is a constant: the quadrature must give (σ/m) 4σ0/√π.
+        let flat = CrossSection::fall_off(3.0, 1e12).expect("valid");
+        assert_relative_eq!(
+            flat.sigma_v_over_m_cm2_g_kms(50.0),
+            338.51375,
+            max_relative = 1e-9
+        );
+    }
+
+    #[test]
+    fn yukawa_born_transfer_matches_scipy() {
+        // Reference: physics reference (scipy, (ħc)² = 0.389379 mb GeV²): α = 1e-5, m = 10 GeV,
+        // m_φ = 1 MeV → σ_T/m = 2.74482, 2.38316, 0.0699671, 2.66781e-5 cm²/g at v → 0, 10, 100,
+        // 1000 km/s.
+        let xs = CrossSection::yukawa(10.0, 1.0, 1e-5).expect("valid");
+        for (v, expected) in [
+            (1e-6, 2.74482),
+            (10.0, 2.38316),
+            (100.0, 0.0699671),
+            (1000.0, 2.66781e-5),
+        ] {
+            assert_relative_eq!(xs.sigma_m_cm2_g(v), expected, max_relative = 2e-5);
+        }
+    }
+
+    #[test]
+    fn resonance_reaches_unitarity_at_its_speed_and_falls_as_v_to_the_minus_four() {
+        // Reference: physics reference: at v = v_R the s-wave resonance reaches 16π/(m² v_R²);
+        // far above it falls as v⁻⁴.
+        let (m, delta, gamma) = (20.0, 1e-7, 1e-4);
+        let xs = CrossSection::resonance(m, delta, gamma, 0.0).expect("valid");
+        let v_r = xs.resonance_speed_kms().expect("resonance");
+        let v_r_c = v_r / SPEED_OF_LIGHT_KMS;
+        let unitarity =
+            natural_per_mass_to_cm2_g(16.0 * std::f64::consts::PI / (m * m * v_r_c * v_r_c), m);
+        assert_relative_eq!(xs.sigma_m_cm2_g(v_r), unitarity, max_relative = 1e-9);
+        let (a, b) = (xs.sigma_m_cm2_g(100.0 * v_r), xs.sigma_m_cm2_g(200.0 * v_r));
+        assert_relative_eq!(a / b, 16.0, max_relative = 1e-2);
+        // The Maxwellian average integrates across the narrow peak (breakpoint at v_R).
+        let average = xs.sigma_v_over_m_cm2_g_kms(v_r / 2.0);
+        assert!(average.is_finite() && average > 0.0);
+    }
+
+    #[test]
+    fn velocity_dependent_rate_condition_inverts() {
+        let xs = CrossSection::fall_off(10.0, 100.0).expect("valid");
+        let rho1 = xs.rate_density_msun_kpc3(30.0, 10.0);
+        let sigma0 = xs
+            .sigma0_for_rate_density_kms(rho1, 10.0)
+            .expect("invertible");
+        assert_relative_eq!(
+            xs.rate_density_msun_kpc3(sigma0, 10.0),
+            rho1,
+            max_relative = 1e-9
         );
     }
 

@@ -32,6 +32,22 @@ pub const KMS_PER_KPC_PER_KMS_PER_MPC: f64 = 1.0e-3;
 /// 1000 kpc × π / (180 × 3600) (exact from the definitions).
 pub const KPC_PER_ARCSEC_PER_MPC: f64 = 1000.0 * std::f64::consts::PI / 648_000.0;
 
+/// (ħc)² in mb·GeV², converting a cross-section in natural units (GeV⁻²) to millibarn.
+///
+/// Source: Particle Data Group, "Physical constants" table ((ħc)² = 0.389379 GeV² mbarn).
+pub const HBAR_C_SQUARED_MB_GEV2: f64 = 0.389_379;
+
+/// One GeV/c² in grams.
+///
+/// Source: Particle Data Group / CODATA 2018 (1 GeV/c² = 1.782 661 92 × 10⁻²⁴ g).
+pub const GRAM_PER_GEV: f64 = 1.782_661_92e-24;
+
+/// One millibarn in cm² (exact: 1 b = 10⁻²⁴ cm²).
+pub const CM2_PER_MB: f64 = 1e-27;
+
+/// The speed of light in km/s (exact, SI definition).
+pub const SPEED_OF_LIGHT_KMS: f64 = 299_792.458;
+
 /// Halo age used when the user gives none, in Gyr (common practice for galaxies; published
 /// Bayesian fits of rotation-curve samples used 10 Gyr).
 pub const DEFAULT_HALO_AGE_GYR: f64 = 10.0;

@@ -248,3 +248,28 @@ fn halo_first_near_follows_a_nearby_solution() {
     assert_relative_eq!(near.sigma0_kms(), again.sigma0_kms(), max_relative = 1e-7);
     assert_eq!(near.summary().branch, None);
 }
+
+#[test]
+fn velocity_dependent_cross_sections_drive_the_rate_condition() {
+    // The rate condition uses ⟨σv⟩/m at the core's σ0: a fall-off with a very large turnover
+    // velocity is the constant cross-section, and a genuine fall-off round-trips core-first →
+    // halo-first.
+    let bulge = Hernquist::new(1e9, 1.5).expect("valid");
+    let constant = setup(3.0, &bulge);
+    let flat = SidmSetup {
+        cross_section: CrossSection::fall_off(3.0, 1e12).expect("valid"),
+        ..constant
+    };
+    let a = core_first(&constant, 1e8, 40.0).expect("solves");
+    let b = core_first(&flat, 1e8, 40.0).expect("solves");
+    assert_relative_eq!(a.r1_kpc(), b.r1_kpc(), max_relative = 1e-8);
+
+    let falling = SidmSetup {
+        cross_section: CrossSection::fall_off(10.0, 60.0).expect("valid"),
+        ..constant
+    };
+    let start = core_first(&falling, 8e7, 45.0).expect("solves");
+    let back = halo_first(&falling, start.nfw(), Branch::LowestDensity).expect("solves");
+    assert!(back.rho0_msun_kpc3() <= 8e7 * (1.0 + 1e-6));
+    assert_relative_eq!(back.nfw().r_s_kpc, start.nfw().r_s_kpc, max_relative = 1e-6);
+}
