@@ -44,6 +44,22 @@ fn fit(catalogue: &Path, out: &Path, extra: &[&str]) -> (i32, String) {
     (code, stderr)
 }
 
+/// Names of the files in every galaxy folder of an output's `galaxies/`.
+fn galaxy_files(galaxies: &Path) -> Vec<String> {
+    std::fs::read_dir(galaxies)
+        .into_iter()
+        .flatten()
+        .filter_map(Result::ok)
+        .flat_map(|e| {
+            std::fs::read_dir(e.path())
+                .into_iter()
+                .flatten()
+                .filter_map(Result::ok)
+        })
+        .map(|e| e.file_name().to_string_lossy().into_owned())
+        .collect()
+}
+
 fn read(path: &Path) -> Vec<u8> {
     std::fs::read(path).unwrap_or_else(|e| panic!("{}: {e}", path.display()))
 }
@@ -173,17 +189,9 @@ fn ctrl_c_stops_cleanly_and_a_rerun_finishes_the_work() {
     let galaxies = out.join("galaxies");
     let deadline = std::time::Instant::now() + std::time::Duration::from_secs(120);
     let finished = || {
-        std::fs::read_dir(&galaxies)
-            .into_iter()
-            .flatten()
-            .filter_map(Result::ok)
-            .flat_map(|e| {
-                std::fs::read_dir(e.path())
-                    .into_iter()
-                    .flatten()
-                    .filter_map(Result::ok)
-            })
-            .filter(|e| e.file_name().to_string_lossy().ends_with(".summary.json"))
+        galaxy_files(&galaxies)
+            .iter()
+            .filter(|name| name.ends_with(".summary.json"))
             .count()
     };
     while finished() == 0 && std::time::Instant::now() < deadline {
@@ -207,17 +215,9 @@ fn ctrl_c_stops_cleanly_and_a_rerun_finishes_the_work() {
         "tables are written for the finished fits"
     );
     // No half-written files are left behind.
-    let partial = std::fs::read_dir(&galaxies)
-        .into_iter()
-        .flatten()
-        .filter_map(Result::ok)
-        .flat_map(|e| {
-            std::fs::read_dir(e.path())
-                .into_iter()
-                .flatten()
-                .filter_map(Result::ok)
-        })
-        .any(|e| e.file_name().to_string_lossy().contains(".partial"));
+    let partial = galaxy_files(&galaxies)
+        .iter()
+        .any(|name| name.contains(".partial"));
     assert!(!partial);
     // Running again completes the rest.
     let (code, stderr) = fit(

@@ -516,24 +516,15 @@ impl Figure for PopulationFigure {
                     .map_err(draw_error)?;
             } else {
                 let (s, s_lo, s_hi) = p.sigma_m_cm2_g;
+                let style = theme::DATA.stroke_width(2);
                 chart
                     .draw_series(std::iter::once(ErrorBar::new_vertical(
-                        v,
-                        s_lo,
-                        s,
-                        s_hi,
-                        theme::DATA.stroke_width(2),
-                        8,
+                        v, s_lo, s, s_hi, style, 8,
                     )))
                     .map_err(draw_error)?;
                 chart
                     .draw_series(std::iter::once(ErrorBar::new_horizontal(
-                        s,
-                        v_lo,
-                        v,
-                        v_hi,
-                        theme::DATA.stroke_width(2),
-                        8,
+                        s, v_lo, v, v_hi, style, 8,
                     )))
                     .map_err(draw_error)?;
                 chart
