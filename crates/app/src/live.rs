@@ -116,15 +116,15 @@ pub fn live_curve(
         }
     }
     let components = model.components(&theta).map_err(|e| e.to_string())?;
-    let (evaluation, _) = model.evaluate(&theta).map_err(|e| e.to_string())?;
+    let chi2 = components.chi2;
     let dof = model
         .n_points()
         .saturating_sub(model.parameters().len())
         .max(1);
     Ok(LiveCurve {
         components,
-        chi2: evaluation.chi2,
-        chi2_nu: evaluation.chi2 / dof as f64,
+        chi2,
+        chi2_nu: chi2 / dof as f64,
         v_rel_kms,
         rho0_msun_kpc3,
         sigma0_kms,

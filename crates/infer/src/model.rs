@@ -222,10 +222,6 @@ impl GalaxyModel {
             ));
             parameters.len() - 1
         });
-        let known = |value: Option<f64>, error: Option<f64>| match (value, error) {
-            (Some(v), Some(e)) if v.is_finite() && e.is_finite() && e > 0.0 => Some((v, e)),
-            _ => None,
-        };
         let distance_mpc = table
             .meta
             .distance_mpc
@@ -236,28 +232,28 @@ impl GalaxyModel {
             .inclination_deg
             .filter(|i| *i > 0.0)
             .map(|i| (i, table.meta.inclination_err_deg.unwrap_or(0.0)));
-        let distance = (priors.vary_distance
-            && known(table.meta.distance_mpc, table.meta.distance_err_mpc).is_some())
-        .then(|| {
-            let (d, e) = distance_mpc.unwrap_or((1.0, 0.1));
-            parameters.push(Parameter::new(
-                "distance_mpc",
-                ((d - 5.0 * e).max(1e-3 * d), d + 5.0 * e),
-                false,
-            ));
-            parameters.len() - 1
-        });
-        let inclination = (priors.vary_inclination
-            && known(table.meta.inclination_deg, table.meta.inclination_err_deg).is_some())
-        .then(|| {
-            let (i, e) = inclination_deg.unwrap_or((60.0, 5.0));
-            parameters.push(Parameter::new(
-                "inclination_deg",
-                ((i - 5.0 * e).max(5.0), (i + 5.0 * e).min(90.0)),
-                false,
-            ));
-            parameters.len() - 1
-        });
+        // A nuisance is sampled only when the user lets it vary and the table gives its error.
+        let with_error = |(_, e): &(f64, f64)| e.is_finite() && *e > 0.0;
+        let distance = distance_mpc
+            .filter(|pair| priors.vary_distance && with_error(pair))
+            .map(|(d, e)| {
+                parameters.push(Parameter::new(
+                    "distance_mpc",
+                    ((d - 5.0 * e).max(1e-3 * d), d + 5.0 * e),
+                    false,
+                ));
+                parameters.len() - 1
+            });
+        let inclination = inclination_deg
+            .filter(|pair| priors.vary_inclination && with_error(pair))
+            .map(|(i, e)| {
+                parameters.push(Parameter::new(
+                    "inclination_deg",
+                    ((i - 5.0 * e).max(5.0), (i + 5.0 * e).min(90.0)),
+                    false,
+                ));
+                parameters.len() - 1
+            });
         table.check_enough_points(parameters.len())?;
 
         let n = table.len();
@@ -395,12 +391,7 @@ impl GalaxyModel {
             .iter()
             .map(|r| r * distance_factor)
             .collect();
-        let v_baryon2_kms2: Vec<f64> = (0..n)
-            .map(|i| {
-                distance_factor
-                    * (self.gas2[i] + upsilon_disk * self.disk2[i] + upsilon_bulge * self.bulge2[i])
-            })
-            .collect();
+        let v_baryon2_kms2 = self.baryon_v2_rows(upsilon_disk, upsilon_bulge, distance_factor);
         let mut derived = [f64::NAN; DERIVED_NAMES.len()];
         derived[Derived::UpsilonDisk as usize] = upsilon_disk;
         derived[Derived::UpsilonBulge as usize] = self
@@ -476,16 +467,27 @@ impl GalaxyModel {
         BaryonTable::from_signed_mass(radii, masses)
     }
 
-    /// The baryonic enclosed mass the Jeans equation sees at the nuisance parameters of `theta`
-    /// (its halo coordinates are ignored), e.g. for a halo-first solve at the same Υ, D and i.
-    pub fn baryons_at(&self, theta: &[f64]) -> Result<BaryonTable, PhysicsError> {
-        let (upsilon_disk, upsilon_bulge, distance_factor, _) = self.nuisances(theta);
-        let v_baryon2_kms2: Vec<f64> = (0..self.n_points())
+    /// Signed baryonic V_b² at each row, (km/s)²: gas + Υ_disk·disk + Υ_bulge·bulge, scaled by the
+    /// distance factor (V_b² ∝ D).
+    fn baryon_v2_rows(
+        &self,
+        upsilon_disk: f64,
+        upsilon_bulge: f64,
+        distance_factor: f64,
+    ) -> Vec<f64> {
+        (0..self.n_points())
             .map(|i| {
                 distance_factor
                     * (self.gas2[i] + upsilon_disk * self.disk2[i] + upsilon_bulge * self.bulge2[i])
             })
-            .collect();
+            .collect()
+    }
+
+    /// The baryonic enclosed mass the Jeans equation sees at the nuisance parameters of `theta`
+    /// (its halo coordinates are ignored), e.g. for a halo-first solve at the same Υ, D and i.
+    pub fn baryons_at(&self, theta: &[f64]) -> Result<BaryonTable, PhysicsError> {
+        let (upsilon_disk, upsilon_bulge, distance_factor, _) = self.nuisances(theta);
+        let v_baryon2_kms2 = self.baryon_v2_rows(upsilon_disk, upsilon_bulge, distance_factor);
         self.baryon_mass_model(distance_factor, &v_baryon2_kms2)
     }
 
@@ -601,6 +603,8 @@ pub struct Components {
     pub v_total_fine_kms: Vec<f64>,
     pub r1_kpc: Option<f64>,
     pub core_radius_kpc: Option<f64>,
+    /// χ² of the model against the (rescaled) data.
+    pub chi2: f64,
 }
 
 fn signed_root(v2: f64) -> f64 {
@@ -673,6 +677,7 @@ impl GalaxyModel {
             v_total_fine_kms,
             r1_kpc: finite(derived[Derived::R1 as usize]),
             core_radius_kpc: finite(derived[Derived::CoreRadius as usize]),
+            chi2: evaluation.chi2,
         })
     }
 }
