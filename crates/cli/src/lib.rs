@@ -11,6 +11,7 @@ mod fit;
 mod mock;
 mod options;
 mod output;
+mod population;
 
 use std::process::ExitCode;
 
@@ -22,6 +23,7 @@ pub use check::CheckArgs;
 pub use curve::CurveArgs;
 pub use fit::FitArgs;
 pub use mock::MockArgs;
+pub use population::PopulationArgs;
 
 /// Caldera: self-interacting dark matter constraints from galaxy rotation curves.
 #[derive(Debug, Parser)]
@@ -55,6 +57,9 @@ pub enum Command {
     /// Check that the SIDM fit's intervals are calibrated, on mocks drawn from its prior.
     #[command(after_help = calibrate::EXAMPLES)]
     Calibrate(CalibrateArgs),
+    /// Fit velocity-dependent σ(v)/m models to a catalogue run's posteriors and compare them.
+    #[command(after_help = population::EXAMPLES)]
+    Population(Box<PopulationArgs>),
     /// Make an invented galaxy: its table and a truth file with every true parameter.
     #[command(after_help = mock::EXAMPLES)]
     Mock(Box<MockArgs>),
@@ -91,5 +96,6 @@ pub fn run(cli: &Cli) -> anyhow::Result<ExitCode> {
         Command::Fit(args) => fit::run(args, cli.verbosity()),
         Command::Calibrate(args) => calibrate::run(args, cli.verbosity()),
         Command::Merge(args) => batch::merge(args, cli.verbosity()),
+        Command::Population(args) => population::run(args, cli.verbosity()),
     }
 }

@@ -24,6 +24,7 @@ pub mod columns;
 mod ecsv;
 mod error;
 pub mod mock;
+pub mod numeric;
 pub mod session;
 mod table;
 mod text;
@@ -34,6 +35,9 @@ use std::path::Path;
 pub use catalogue::{Catalogue, CatalogueEntry, load_catalogue};
 pub use columns::ColumnRole;
 pub use error::{DataError, Location};
+pub use numeric::{
+    ConstraintValue, NumericTable, OutsideConstraint, read_constraints, read_numeric_csv,
+};
 pub use table::{GalaxyMeta, GalaxyTable, TableWarning};
 pub use text::ColumnMapping;
 pub use write::{ColumnValues, MetaValue, OutputColumn, OutputTable, write_atomic};

@@ -7,6 +7,7 @@ mod error;
 pub mod fit;
 pub mod model;
 pub mod optimize;
+pub mod population;
 pub mod priors;
 pub mod sampler;
 pub mod session;

@@ -12,17 +12,17 @@ use crate::sampler::LogDensity;
 /// Cost given to points with zero posterior, so the simplex moves away from them.
 const REFUSED_COST: f64 = 1e100;
 
-struct NegativeLogPosterior<'a> {
-    model: &'a GalaxyModel,
+struct NegativeLogDensity<'a, D> {
+    density: &'a D,
 }
 
-impl CostFunction for NegativeLogPosterior<'_> {
+impl<D: LogDensity> CostFunction for NegativeLogDensity<'_, D> {
     type Param = Vec<f64>;
     type Output = f64;
 
     fn cost(&self, theta: &Self::Param) -> Result<Self::Output, Error> {
-        let mut derived = vec![f64::NAN; self.model.n_derived()];
-        let lp = self.model.log_density(theta, &mut derived);
+        let mut derived = vec![f64::NAN; self.density.n_derived()];
+        let lp = self.density.log_density(theta, &mut derived);
         Ok(if lp.is_finite() { -lp } else { REFUSED_COST })
     }
 }
@@ -59,16 +59,19 @@ pub fn valid_random_start(
     None
 }
 
-fn nelder_mead(
-    model: &GalaxyModel,
+/// Nelder–Mead on −ln p from `start`, the first simplex stepping 5% of each coordinate's
+/// `(lower, upper)` range.
+pub fn nelder_mead<D: LogDensity>(
+    density: &D,
+    bounds: &[(f64, f64)],
     start: &[f64],
     max_iterations: u64,
 ) -> Result<MapEstimate, InferError> {
     let mut vertices = vec![start.to_vec()];
-    for (k, p) in model.parameters().iter().enumerate() {
+    for (k, &(lower, upper)) in bounds.iter().enumerate() {
         let mut v = start.to_vec();
-        let step = 0.05 * (p.upper - p.lower);
-        v[k] = if v[k] + step <= p.upper {
+        let step = 0.05 * (upper - lower);
+        v[k] = if v[k] + step <= upper {
             v[k] + step
         } else {
             v[k] - step
@@ -78,7 +81,7 @@ fn nelder_mead(
     let solver = NelderMead::new(vertices)
         .with_sd_tolerance(1e-10)
         .map_err(|e| InferError::Config(format!("optimiser set-up: {e}")))?;
-    let result = Executor::new(NegativeLogPosterior { model }, solver)
+    let result = Executor::new(NegativeLogDensity { density }, solver)
         .configure(|state| state.max_iters(max_iterations))
         .run()
         .map_err(|e| InferError::Config(format!("optimiser: {e}")))?;
@@ -101,12 +104,17 @@ pub fn maximum_a_posteriori(
     seed: u64,
 ) -> Result<MapEstimate, InferError> {
     let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
+    let bounds: Vec<(f64, f64)> = model
+        .parameters()
+        .iter()
+        .map(|p| (p.lower, p.upper))
+        .collect();
     let mut best: Option<MapEstimate> = None;
     for _ in 0..starts.max(1) {
         let Some(start) = valid_random_start(model, &mut rng, 2000) else {
             continue;
         };
-        let estimate = nelder_mead(model, &start, 2000)?;
+        let estimate = nelder_mead(model, &bounds, &start, 2000)?;
         if best
             .as_ref()
             .is_none_or(|b| estimate.log_posterior > b.log_posterior)
@@ -120,7 +128,7 @@ pub fn maximum_a_posteriori(
             model.model.name()
         ))
     })?;
-    let polished = nelder_mead(model, &best.theta, 2000)?;
+    let polished = nelder_mead(model, &bounds, &best.theta, 2000)?;
     Ok(if polished.log_posterior > best.log_posterior {
         polished
     } else {

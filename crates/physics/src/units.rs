@@ -74,5 +74,11 @@ mod tests {
         approx::assert_relative_eq!(G_KPC_KMS2_PER_MSUN, 4.300917270e-6, max_relative = 1e-12);
         approx::assert_relative_eq!(cm2_per_g_to_kpc2_per_msun(1.0), 2.088357373e-10);
         approx::assert_relative_eq!(gyr_to_kpc_per_kms(0.9777922217), 1.0);
+        // The barn/GeV factor agrees with the PDG GeV-to-gram factor and the barn's definition.
+        approx::assert_relative_eq!(
+            BARN_PER_GEV_PER_CM2_PER_G,
+            GRAM_PER_GEV / (CM2_PER_MB * 1e3),
+            max_relative = 1e-5
+        );
     }
 }

@@ -429,8 +429,21 @@ pub struct PopulationPoint {
 pub struct PopulationFigure {
     pub title: String,
     pub points: Vec<PopulationPoint>,
-    /// Named curves σ/m(v) (e.g. population fits, particle models): (label, [(v km/s, σ/m)]).
-    pub curves: Vec<(String, Vec<(f64, f64)>)>,
+    /// Curves over the points (population fits, particle models).
+    pub curves: Vec<PopulationCurve>,
+}
+
+/// A curve in the population plot: σ/m in cm²/g against a speed in km/s.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PopulationCurve {
+    pub label: String,
+    /// (speed km/s, σ/m cm²/g).
+    pub points: Vec<(f64, f64)>,
+    /// Dashed: the unaveraged σ(v)/m at relative speed v. Solid: the velocity-averaged
+    /// ⟨σv⟩/m / ⟨v_rel⟩ at mean relative speed ⟨v_rel⟩ — what the galaxies measure.
+    pub dashed: bool,
+    /// Curves of one group share a colour (a particle model's two curves).
+    pub group: usize,
 }
 
 impl Figure for PopulationFigure {
@@ -453,14 +466,26 @@ impl Figure for PopulationFigure {
                     (a.min(v), b.max(v))
                 })
         };
-        let (mut x0, mut x1) =
-            positive(&mut xs.chain(self.curves.iter().flat_map(|c| c.1.iter().map(|p| p.0))));
+        let (mut x0, mut x1) = positive(
+            &mut xs.chain(
+                self.curves
+                    .iter()
+                    .flat_map(|c| c.points.iter().map(|p| p.0)),
+            ),
+        );
         let (mut y0, mut y1) = positive(&mut ys.into_iter());
         if x0.is_nan() || x1.is_nan() || x0 >= x1 {
             (x0, x1) = (10.0, 1000.0);
         }
         if y0.is_nan() || y1.is_nan() || y0 >= y1 {
             (y0, y1) = (0.01, 100.0);
+        }
+        // Curves widen the range by up to a factor 30 beyond the points.
+        for &(_, y) in self.curves.iter().flat_map(|c| c.points.iter()) {
+            if y.is_finite() && y > 0.0 {
+                y0 = y0.min(y.max(y0 / 30.0));
+                y1 = y1.max(y.min(y1 * 30.0));
+            }
         }
         let (x0, x1, y0, y1) = (x0 / 1.5, x1 * 1.5, y0 / 3.0, y1 * 3.0);
         let mut chart = ChartBuilder::on(root)
@@ -474,25 +499,46 @@ impl Figure for PopulationFigure {
             .configure_mesh()
             .disable_mesh()
             .x_desc("Mean relative velocity <v_rel> [km/s]")
-            .y_desc("σ/m [cm²/g]")
+            .y_desc("σ/m [cm²/g]  (1 cm²/g = 1.78 barn/GeV)")
             .x_label_formatter(&|v| log_tick(*v))
             .y_label_formatter(&|v| log_tick(*v))
             .label_style(font(theme::TICK_SIZE))
             .axis_desc_style(font(theme::LABEL_SIZE))
             .draw()
             .map_err(draw_error)?;
-        for (k, (label, curve)) in self.curves.iter().enumerate() {
-            let colour = theme::CURVES[k % theme::CURVES.len()];
-            chart
-                .draw_series(LineSeries::new(
-                    curve.iter().copied().filter(|(x, y)| *x > 0.0 && *y > 0.0),
-                    colour.stroke_width(3),
-                ))
-                .map_err(draw_error)?
-                .label(label.as_str())
-                .legend(move |(x, y)| {
-                    PathElement::new(vec![(x, y), (x + 24, y)], colour.stroke_width(3))
-                });
+        for curve in &self.curves {
+            let colour = theme::CURVES[curve.group % theme::CURVES.len()];
+            let style = colour.stroke_width(3);
+            // Runs of points inside the plotted range; a curve leaving it is cut, not clamped.
+            let mut runs: Vec<Vec<(f64, f64)>> = vec![Vec::new()];
+            for &(x, y) in &curve.points {
+                if x > 0.0 && y >= y0 && y <= y1 {
+                    if let Some(run) = runs.last_mut() {
+                        run.push((x, y));
+                    }
+                } else if runs.last().is_some_and(|run| !run.is_empty()) {
+                    runs.push(Vec::new());
+                }
+            }
+            let mut labelled = false;
+            for run in runs.into_iter().filter(|r| r.len() > 1) {
+                let drawn = if curve.dashed {
+                    chart
+                        .draw_series(DashedLineSeries::new(run, 10, 6, style))
+                        .map_err(draw_error)?
+                } else {
+                    chart
+                        .draw_series(LineSeries::new(run, style))
+                        .map_err(draw_error)?
+                };
+                if !labelled {
+                    labelled = true;
+                    let end = if curve.dashed { 12 } else { 24 };
+                    drawn
+                        .label(curve.label.as_str())
+                        .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + end, y)], style));
+                }
+            }
         }
         for p in &self.points {
             let (v, v_lo, v_hi) = p.v_rel_kms;
@@ -539,7 +585,7 @@ impl Figure for PopulationFigure {
         if !self.curves.is_empty() {
             chart
                 .configure_series_labels()
-                .position(SeriesLabelPosition::UpperRight)
+                .position(SeriesLabelPosition::LowerLeft)
                 .label_font(font(theme::TICK_SIZE))
                 .background_style(WHITE.mix(0.85))
                 .border_style(BLACK)

@@ -1,0 +1,366 @@
+//! The population likelihood: how a shared σ(v)/m is scored against each galaxy's posterior
+//! samples and against outside constraints.
+//!
+//! Each galaxy's SIDM fit sampled (ρ0, σ0, σ/m, nuisances) with σ/m a constant, uniform in
+//! log10 σ/m. The halo a velocity-dependent σ(v)/m makes is the one a constant σ/m makes when the
+//! two give the same rate ⟨σv⟩/m at the core's σ0, so a shared model predicts, for every σ0, the
+//! *effective* constant cross-section σ_eff(σ0) = ⟨σv⟩/m(σ0) / ⟨v_rel⟩(σ0), ⟨v_rel⟩ = 4σ0/√π.
+//!
+//! - Joint treatment (all galaxies share σ(v)/m, each keeps its own halo and nuisances): the
+//!   galaxy's marginal likelihood is ∫ p(σ0, log σ/m = log σ_eff(σ0) | data) dσ0 divided by the
+//!   (flat) prior density of log σ/m, estimated from the chain by importance reweighting: each
+//!   sample k counts with the kernel weight K_h(log σ_eff(σ0_k) − log (σ/m)_k). The halo and
+//!   nuisance parameters are integrated out by the chain itself; the kernel (width h, Silverman's
+//!   rule on log σ/m) stands in for the conditional density of σ/m at the sample's σ0.
+//! - Marginal treatment (the population fit over the σ/m–velocity plane): each galaxy is one
+//!   point at its median σ0, scored by the kernel density of its log σ/m samples — the whole
+//!   posterior, so a galaxy that only sets an upper limit counts as one.
+//!
+//! Predictions below the per-galaxy prior's lower bound are scored at the bound (a smaller σ/m
+//! changes the halo no further: the core is already smaller than the data resolve), and the
+//! kernel is reflected there so the density does not halve at the edge. Above the upper bound the
+//! kernel's tail takes over: the galaxy's fit says nothing there, and the score falls off.
+
+use caldera_data::{ConstraintValue, OutsideConstraint};
+use caldera_physics::CrossSection;
+use caldera_physics::cross_section::mean_relative_speed_kms;
+use serde::{Deserialize, Serialize};
+
+use crate::InferError;
+use crate::population::models::VelocityModel;
+use crate::sampler::LogDensity;
+use crate::summary::{Interval, interval};
+
+/// √(2π).
+const SQRT_TWO_PI: f64 = 2.506_628_274_631_000_7;
+
+/// z of a one-sided 95% limit read as a half-normal centred at zero (common practice).
+const HALF_NORMAL_95: f64 = 1.959_963_984_540_054;
+
+/// Fewest posterior samples a galaxy must have.
+pub const MIN_SAMPLES: usize = 50;
+
+/// One galaxy's SIDM posterior, reduced to what a population fit needs.
+#[derive(Debug, Clone, PartialEq)]
+pub struct GalaxyPosterior {
+    pub galaxy: String,
+    /// Core dispersion σ0 of each sample, km/s.
+    pub sigma0_kms: Vec<f64>,
+    /// log10 of each sample's σ/m (cm²/g).
+    pub log10_sigma_m: Vec<f64>,
+    /// The fit's prior bounds on log10 σ/m.
+    pub log10_bounds: (f64, f64),
+    /// Kernel width in log10 σ/m (dex).
+    pub bandwidth_dex: f64,
+    /// Median σ0 of the samples, km/s.
+    pub median_sigma0_kms: f64,
+    /// Marginal log-density of log10 σ/m, tabulated from the lower bound in steps of
+    /// `bandwidth_dex / 8`.
+    marginal: Vec<f64>,
+}
+
+/// Silverman's rule of thumb, h = 0.9 min(s, IQR/1.34) n^(−1/5) (Silverman 1986, eq. 3.31),
+/// floored at 0.02 dex.
+fn silverman_bandwidth(values: &[f64]) -> f64 {
+    let n = values.len() as f64;
+    let mean = values.iter().sum::<f64>() / n;
+    let sd = (values.iter().map(|v| (v - mean).powi(2)).sum::<f64>() / (n - 1.0)).sqrt();
+    let mut sorted = values.to_vec();
+    sorted.sort_by(f64::total_cmp);
+    let iqr = crate::summary::quantile(&sorted, 0.75) - crate::summary::quantile(&sorted, 0.25);
+    let spread = if iqr > 0.0 { sd.min(iqr / 1.34) } else { sd };
+    (0.9 * spread * n.powf(-0.2)).max(0.02)
+}
+
+/// ln of the mean Gaussian kernel density, (1/(N h √(2π))) Σ_k [K((y_k − s_k)/h) +
+/// K((y_k + s_k − 2 lower)/h)], over pairs (y_k, s_k); the reflected term is skipped where it is
+/// below e⁻³² of the direct one.
+fn log_kernel_mean(pairs: impl Iterator<Item = (f64, f64)>, lower: f64, h: f64) -> f64 {
+    let mut terms = Vec::with_capacity(pairs.size_hint().0);
+    for (y, s) in pairs {
+        let u = (y - s) / h;
+        let r = (y + s - 2.0 * lower) / h;
+        let direct = -0.5 * u * u;
+        terms.push(if r < 8.0 {
+            let reflected = -0.5 * r * r;
+            direct.max(reflected) + (-(direct - reflected).abs()).exp().ln_1p()
+        } else {
+            direct
+        });
+    }
+    let max = terms.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    if !max.is_finite() {
+        return max;
+    }
+    let sum: f64 = terms.iter().map(|t| (t - max).exp()).sum();
+    max + sum.ln() - (terms.len() as f64 * h * SQRT_TWO_PI).ln()
+}
+
+impl GalaxyPosterior {
+    /// From paired samples of σ0 (km/s) and log10 σ/m; non-finite pairs are dropped, and at
+    /// most `max_samples` are kept (evenly spaced through the chain).
+    pub fn from_samples(
+        galaxy: &str,
+        sigma0_kms: &[f64],
+        log10_sigma_m: &[f64],
+        log10_bounds: (f64, f64),
+        max_samples: usize,
+    ) -> Result<Self, InferError> {
+        let pairs: Vec<(f64, f64)> = sigma0_kms
+            .iter()
+            .zip(log10_sigma_m)
+            .filter(|(s, y)| s.is_finite() && **s > 0.0 && y.is_finite())
+            .map(|(&s, &y)| (s, y))
+            .collect();
+        if pairs.len() < MIN_SAMPLES {
+            return Err(InferError::Config(format!(
+                "galaxy '{galaxy}': {} usable posterior samples of (sigma0, sigma/m); need at least {MIN_SAMPLES}",
+                pairs.len()
+            )));
+        }
+        if log10_bounds.0.partial_cmp(&log10_bounds.1) != Some(std::cmp::Ordering::Less) {
+            return Err(InferError::Config(format!(
+                "galaxy '{galaxy}': sigma/m prior bounds {log10_bounds:?} (log10) are not increasing"
+            )));
+        }
+        let stride = pairs.len().div_ceil(max_samples.max(MIN_SAMPLES));
+        let kept: Vec<(f64, f64)> = pairs.into_iter().step_by(stride).collect();
+        let log10_sigma_m: Vec<f64> = kept.iter().map(|p| p.1).collect();
+        let bandwidth_dex = silverman_bandwidth(&log10_sigma_m);
+        let mut sigma0_sorted: Vec<f64> = kept.iter().map(|p| p.0).collect();
+        sigma0_sorted.sort_by(f64::total_cmp);
+        let mut posterior = Self {
+            median_sigma0_kms: crate::summary::quantile(&sigma0_sorted, 0.5),
+            galaxy: galaxy.to_string(),
+            sigma0_kms: kept.iter().map(|p| p.0).collect(),
+            log10_sigma_m,
+            log10_bounds,
+            bandwidth_dex,
+            marginal: Vec::new(),
+        };
+        let step = bandwidth_dex / 8.0;
+        let nodes = (((log10_bounds.1 - log10_bounds.0) + 1.0) / step).ceil() as usize + 1;
+        posterior.marginal = (0..nodes)
+            .map(|i| posterior.direct_log_density(log10_bounds.0 + step * i as f64))
+            .collect();
+        Ok(posterior)
+    }
+
+    /// The kernel log-density of log10 σ/m at `y`, summed over the samples.
+    fn direct_log_density(&self, y: f64) -> f64 {
+        let lower = self.log10_bounds.0;
+        let y = y.max(lower);
+        log_kernel_mean(
+            self.log10_sigma_m.iter().map(|&s| (y, s)),
+            lower,
+            self.bandwidth_dex,
+        )
+    }
+
+    /// The marginal log-density of log10 σ/m at `y` (tabulated; clamped at the lower bound).
+    #[must_use]
+    pub fn marginal_log_density(&self, y: f64) -> f64 {
+        let y = y.max(self.log10_bounds.0);
+        let position = (y - self.log10_bounds.0) / (self.bandwidth_dex / 8.0);
+        let below = position.floor() as usize;
+        if below + 1 >= self.marginal.len() {
+            return self.direct_log_density(y);
+        }
+        let w = position - below as f64;
+        self.marginal[below] * (1.0 - w) + self.marginal[below + 1] * w
+    }
+
+    /// The joint-treatment log-likelihood: samples reweighted by how close each one's σ/m lies
+    /// to the shared model's σ_eff at that sample's σ0 (`predicted` maps σ0 to log10 σ_eff).
+    pub fn joint_log_density(&self, predicted: impl Fn(f64) -> f64) -> f64 {
+        let lower = self.log10_bounds.0;
+        log_kernel_mean(
+            self.sigma0_kms
+                .iter()
+                .zip(&self.log10_sigma_m)
+                .map(|(&sigma0, &s)| (predicted(sigma0).max(lower), s)),
+            lower,
+            self.bandwidth_dex,
+        )
+    }
+
+    /// Posterior summary of the mean relative speed ⟨v_rel⟩ = 4σ0/√π, km/s.
+    #[must_use]
+    pub fn v_rel_kms(&self) -> Option<Interval> {
+        interval(self.sigma0_kms.iter().map(|&s| mean_relative_speed_kms(s)))
+    }
+
+    /// Posterior summary of σ/m, cm²/g.
+    #[must_use]
+    pub fn sigma_m_cm2_g(&self) -> Option<Interval> {
+        interval(self.log10_sigma_m.iter().map(|&y| 10f64.powf(y)))
+    }
+}
+
+/// The velocity-averaged, effective constant cross-section σ_eff = ⟨σv⟩/m / ⟨v_rel⟩ at σ0,
+/// cm²/g.
+#[must_use]
+pub fn effective_sigma_m_cm2_g(cross_section: &CrossSection, sigma0_kms: f64) -> f64 {
+    cross_section.sigma_v_over_m_cm2_g_kms(sigma0_kms) / mean_relative_speed_kms(sigma0_kms)
+}
+
+/// The log-likelihood of one outside constraint given the model's σ_eff at its velocity:
+/// Gaussian for a measurement, and for a 95% upper limit U a half-normal centred at zero with
+/// width U/1.96 (common practice).
+#[must_use]
+pub fn constraint_log_likelihood(constraint: &OutsideConstraint, predicted_cm2_g: f64) -> f64 {
+    match constraint.value {
+        ConstraintValue::Measurement {
+            sigma_m_cm2_g,
+            error_cm2_g,
+        } => {
+            -0.5 * ((predicted_cm2_g - sigma_m_cm2_g) / error_cm2_g).powi(2)
+                - (error_cm2_g * SQRT_TWO_PI).ln()
+        }
+        ConstraintValue::Upper95 { sigma_m_cm2_g } => {
+            let width = sigma_m_cm2_g / HALF_NORMAL_95;
+            -0.5 * (predicted_cm2_g / width).powi(2) + (2.0 / (width * SQRT_TWO_PI)).ln()
+        }
+    }
+}
+
+/// How the galaxies enter a population likelihood.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Treatment {
+    /// Each galaxy is one point at its median velocity (its whole σ/m posterior counts).
+    Marginal,
+    /// All galaxies share σ(v)/m with their own halo and nuisance parameters (reweighting).
+    Joint,
+}
+
+/// Nodes of the σ0 table used by the joint treatment, per e-fold.
+const NODES_PER_E_FOLD: f64 = 8.0;
+
+/// The likelihood of one population model's coordinates, as a density for the sampler (flat
+/// priors on the log10 coordinates within their bounds).
+pub struct PopulationLikelihood<'a> {
+    pub model: VelocityModel,
+    pub treatment: Treatment,
+    pub yukawa_dm_mass_gev: f64,
+    galaxies: &'a [GalaxyPosterior],
+    constraints: &'a [OutsideConstraint],
+    /// ln σ0 at the table nodes (joint treatment).
+    ln_sigma0_nodes: Vec<f64>,
+}
+
+impl<'a> PopulationLikelihood<'a> {
+    #[must_use]
+    pub fn new(
+        model: VelocityModel,
+        treatment: Treatment,
+        yukawa_dm_mass_gev: f64,
+        galaxies: &'a [GalaxyPosterior],
+        constraints: &'a [OutsideConstraint],
+    ) -> Self {
+        let (low, high) = galaxies
+            .iter()
+            .flat_map(|g| g.sigma0_kms.iter())
+            .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), &s| {
+                (lo.min(s.ln()), hi.max(s.ln()))
+            });
+        let ln_sigma0_nodes = if low.is_finite() && high.is_finite() {
+            let count = ((high - low) * NODES_PER_E_FOLD).ceil().max(1.0) as usize + 1;
+            (0..count)
+                .map(|i| low + (high - low) * i as f64 / (count - 1).max(1) as f64)
+                .collect()
+        } else {
+            Vec::new()
+        };
+        Self {
+            model,
+            treatment,
+            yukawa_dm_mass_gev,
+            galaxies,
+            constraints,
+            ln_sigma0_nodes,
+        }
+    }
+
+    /// Number of data points: galaxies plus outside constraints.
+    #[must_use]
+    pub fn n_data(&self) -> usize {
+        self.galaxies.len() + self.constraints.len()
+    }
+
+    /// True when every coordinate lies within its prior bounds.
+    #[must_use]
+    pub fn in_bounds(&self, theta: &[f64]) -> bool {
+        theta.len() == self.model.parameters().len()
+            && theta
+                .iter()
+                .zip(self.model.parameters())
+                .all(|(x, p)| *x >= p.lower && *x <= p.upper)
+    }
+
+    /// ln L(θ) (−∞ outside the bounds).
+    #[must_use]
+    pub fn log_likelihood(&self, theta: &[f64]) -> f64 {
+        if !self.in_bounds(theta) {
+            return f64::NEG_INFINITY;
+        }
+        let Ok(cross_section) = self.model.cross_section(theta, self.yukawa_dm_mass_gev) else {
+            return f64::NEG_INFINITY;
+        };
+        let log10_effective = |sigma0: f64| effective_sigma_m_cm2_g(&cross_section, sigma0).log10();
+        let galaxies: f64 = match self.treatment {
+            Treatment::Marginal => self
+                .galaxies
+                .iter()
+                .map(|g| g.marginal_log_density(log10_effective(g.median_sigma0_kms)))
+                .sum(),
+            Treatment::Joint => {
+                let table: Vec<f64> = self
+                    .ln_sigma0_nodes
+                    .iter()
+                    .map(|&x| log10_effective(x.exp()))
+                    .collect();
+                let nodes = &self.ln_sigma0_nodes;
+                let interpolate = |sigma0: f64| -> f64 {
+                    let x = sigma0.ln();
+                    if nodes.len() < 2 {
+                        return table.first().copied().unwrap_or(f64::NAN);
+                    }
+                    let step = nodes[1] - nodes[0];
+                    let position = ((x - nodes[0]) / step).clamp(0.0, (nodes.len() - 1) as f64);
+                    let below = (position.floor() as usize).min(nodes.len() - 2);
+                    let w = position - below as f64;
+                    table[below] * (1.0 - w) + table[below + 1] * w
+                };
+                self.galaxies
+                    .iter()
+                    .map(|g| g.joint_log_density(interpolate))
+                    .sum()
+            }
+        };
+        let outside: f64 = self
+            .constraints
+            .iter()
+            .map(|c| {
+                let sigma0 = c.v_rel_kms * std::f64::consts::PI.sqrt() / 4.0;
+                constraint_log_likelihood(c, effective_sigma_m_cm2_g(&cross_section, sigma0))
+            })
+            .sum();
+        let total = galaxies + outside;
+        if total.is_nan() {
+            f64::NEG_INFINITY
+        } else {
+            total
+        }
+    }
+}
+
+impl LogDensity for PopulationLikelihood<'_> {
+    fn dim(&self) -> usize {
+        self.model.parameters().len()
+    }
+
+    fn log_density(&self, theta: &[f64], _derived: &mut [f64]) -> f64 {
+        self.log_likelihood(theta)
+    }
+}
