@@ -34,8 +34,9 @@ pub const KPC_PER_ARCSEC_PER_MPC: f64 = 1000.0 * std::f64::consts::PI / 648_000.
 
 /// (ħc)² in mb·GeV², converting a cross-section in natural units (GeV⁻²) to millibarn.
 ///
-/// Source: Particle Data Group, "Physical constants" table ((ħc)² = 0.389379 GeV² mbarn).
-pub const HBAR_C_SQUARED_MB_GEV2: f64 = 0.389_379;
+/// Source: Particle Data Group, "Physical constants" table ((ħc)² = 0.389 379 372 1 GeV² mbarn;
+/// astropy.constants (CODATA 2018) gives 0.389 379 372 17).
+pub const HBAR_C_SQUARED_MB_GEV2: f64 = 0.389_379_372_2;
 
 /// One GeV/c² in grams.
 ///
