@@ -10,6 +10,7 @@ use caldera_data::{
     ColumnMapping, ColumnRole, DataError, GalaxyTable, ReadOptions, load_catalogue, read_table,
     write_atomic,
 };
+use caldera_infer::population::{PopulationFit, PopulationSettings, preferred_by_bic};
 use caldera_infer::sampler::RunConfig;
 use caldera_infer::session::Session;
 use caldera_infer::{FitConfig, FitResult};
@@ -18,6 +19,7 @@ use caldera_report::tables::{latex_table, results_table};
 use egui::Color32;
 
 use crate::live::{LiveCurve, live_curve};
+use crate::population::{ParticleModel, PopulationJob};
 use crate::theme;
 use crate::worker::{FitJob, FitMessage};
 
@@ -97,6 +99,8 @@ pub enum Command {
     Sort(SortKey),
     QuitWithoutSaving,
     SaveAndQuit,
+    Particle(ParticleModel),
+    FitPopulation,
 }
 
 /// A table waiting for the user to confirm its column roles.
@@ -126,6 +130,9 @@ pub(crate) struct Runtime {
     pub(crate) session_path: Option<PathBuf>,
     pub(crate) dialog: Option<Receiver<Option<PathBuf>>>,
     pub(crate) mapping: Option<MappingStep>,
+    pub(crate) particle: ParticleModel,
+    pub(crate) population_job: Option<PopulationJob>,
+    pub(crate) population: Option<Vec<PopulationFit>>,
 }
 
 /// The app: the saved session and the runtime.
@@ -167,6 +174,9 @@ impl CalderaApp {
                 session_path: None,
                 dialog: None,
                 mapping: None,
+                particle: ParticleModel::default(),
+                population_job: None,
+                population: None,
             },
         };
         if let Some(path) = options.session {
@@ -193,6 +203,24 @@ impl CalderaApp {
     #[must_use]
     pub fn fitting(&self) -> bool {
         self.runtime.fit.is_some()
+    }
+
+    /// The population fits of σ(v)/m, once run.
+    #[must_use]
+    pub fn population_fits(&self) -> Option<&[PopulationFit]> {
+        self.runtime.population.as_deref()
+    }
+
+    /// True while population fits run.
+    #[must_use]
+    pub fn fitting_population(&self) -> bool {
+        self.runtime.population_job.is_some()
+    }
+
+    /// The particle model drawn in the population view.
+    #[must_use]
+    pub fn particle(&self) -> &ParticleModel {
+        &self.runtime.particle
     }
 
     /// True when the session has changes not yet saved.
@@ -385,6 +413,31 @@ impl CalderaApp {
         }
     }
 
+    fn poll_population(&mut self) {
+        let Some(job) = &self.runtime.population_job else {
+            return;
+        };
+        let Ok(outcome) = job.receiver.try_recv() else {
+            return;
+        };
+        self.runtime.population_job = None;
+        match outcome {
+            Ok(fits) => {
+                if let Some(preferred) = preferred_by_bic(&fits) {
+                    self.say(
+                        theme::DATA,
+                        format!(
+                            "population fit: {} preferred (lowest BIC)",
+                            preferred.name()
+                        ),
+                    );
+                }
+                self.runtime.population = Some(fits);
+            }
+            Err(e) => self.say(theme::ERROR, format!("population fit failed: {e}")),
+        }
+    }
+
     fn poll_worker(&mut self) {
         let Some(job) = &mut self.runtime.fit else {
             return;
@@ -456,6 +509,17 @@ impl CalderaApp {
                 }
             }
             Command::UseBestFit => self.use_best_fit(),
+            Command::Particle(particle) => self.runtime.particle = particle,
+            Command::FitPopulation => {
+                let (posteriors, _) = self.population_posteriors();
+                if !posteriors.is_empty() && self.runtime.population_job.is_none() {
+                    let settings = PopulationSettings {
+                        seed: self.session.fit.seed,
+                        ..PopulationSettings::default()
+                    };
+                    self.runtime.population_job = Some(PopulationJob::start(posteriors, settings));
+                }
+            }
             Command::ExportResults(format) => self.export_results(format),
             Command::ExportFigure(format) => self.export_figure(format),
             Command::SaveSession => {
@@ -663,6 +727,7 @@ impl eframe::App for CalderaApp {
     fn ui(&mut self, ui: &mut egui::Ui, _frame: &mut eframe::Frame) {
         let ctx = ui.ctx().clone();
         self.poll_worker();
+        self.poll_population();
         if let Some(receiver) = &self.runtime.dialog
             && let Ok(picked) = receiver.try_recv()
         {
@@ -700,10 +765,13 @@ impl eframe::App for CalderaApp {
             .resizable(true)
             .default_size(330.0)
             .show(ui, |ui| {
-                egui::ScrollArea::vertical().show(ui, |ui| {
-                    self.controls_ui(ui, &mut commands);
-                    ui.separator();
-                    self.fit_ui(ui, &mut commands);
+                egui::ScrollArea::vertical().show(ui, |ui| match self.runtime.view {
+                    View::Galaxy => {
+                        self.controls_ui(ui, &mut commands);
+                        ui.separator();
+                        self.fit_ui(ui, &mut commands);
+                    }
+                    View::Population => self.population_controls_ui(ui, &mut commands),
                 });
             });
         egui::CentralPanel::default().show(ui, |ui| match self.runtime.view {
@@ -715,7 +783,10 @@ impl eframe::App for CalderaApp {
         for command in commands {
             self.apply(command, &ctx);
         }
-        if self.runtime.fit.is_some() || self.runtime.dialog.is_some() {
+        if self.runtime.fit.is_some()
+            || self.runtime.dialog.is_some()
+            || self.runtime.population_job.is_some()
+        {
             ctx.request_repaint_after(std::time::Duration::from_millis(100));
         }
     }

@@ -8,6 +8,7 @@
 mod app;
 pub mod live;
 mod panels;
+pub mod population;
 pub mod theme;
 mod worker;
 

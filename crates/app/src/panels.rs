@@ -2,9 +2,12 @@
 
 use caldera_data::session::HaloModel;
 use egui::{Color32, RichText};
-use egui_plot::{Bar, BarChart, Legend, Line, MarkerShape, Plot, PlotPoints, Points, VLine};
+use egui_plot::{
+    Bar, BarChart, Legend, Line, LineStyle, MarkerShape, Plot, PlotPoints, Points, VLine,
+};
 
 use crate::app::{CalderaApp, Command, SortKey, View};
+use crate::population::log_curves;
 use crate::theme;
 
 /// Tick labels for axes that plot log10 values: the value itself.
@@ -511,8 +514,9 @@ impl CalderaApp {
         let names = self.galaxy_names();
         let mut points: Vec<(usize, [f64; 2])> = Vec::new();
         let response = Plot::new("population")
-            .x_axis_label("<v_rel> [km/s]")
-            .y_axis_label("σ/m [cm²/g]")
+            .legend(Legend::default())
+            .x_axis_label("<v_rel> [km/s] (σ(v)/m: relative speed v)")
+            .y_axis_label("σ/m [cm²/g]  (1 cm²/g = 1.78 barn/GeV)")
             .x_axis_formatter(power_of_ten)
             .y_axis_formatter(power_of_ten)
             .show(ui, |plot| {
@@ -577,6 +581,40 @@ impl CalderaApp {
                             );
                             points.push((index, [x, y]));
                         }
+                    }
+                }
+                let particle = &self.runtime.particle;
+                if let Ok(cross_section) = particle.cross_section() {
+                    let (unaveraged, averaged) = log_curves(&cross_section);
+                    let name = format!("particle: {}", particle.kind.name());
+                    plot.line(
+                        Line::new(
+                            format!("{name}, <σv>/m ÷ <v_rel>"),
+                            PlotPoints::from(averaged),
+                        )
+                        .color(theme::CURVES[4])
+                        .width(2.5)
+                        .id("particle averaged"),
+                    );
+                    plot.line(
+                        Line::new(format!("{name}, σ(v)/m"), PlotPoints::from(unaveraged))
+                            .color(theme::CURVES[4])
+                            .width(2.0)
+                            .style(LineStyle::dashed_loose())
+                            .id("particle unaveraged"),
+                    );
+                }
+                for (k, fit) in self.runtime.population.iter().flatten().enumerate() {
+                    if let Ok(cross_section) = fit.best_cross_section() {
+                        plot.line(
+                            Line::new(
+                                format!("fit: {} (best)", fit.model.name()),
+                                PlotPoints::from(log_curves(&cross_section).1),
+                            )
+                            .color(theme::CURVES[k % 4])
+                            .width(2.0)
+                            .id(("population fit", k)),
+                        );
                     }
                 }
                 plot.pointer_coordinate()

@@ -26,6 +26,14 @@ pub const MARKER: Color32 = from_figure(rgb(figure::MARKER));
 pub const POSTERIOR: Color32 = from_figure(rgb(figure::POSTERIOR));
 /// Upper limits in the population view.
 pub const LIMIT: Color32 = from_figure(rgb(figure::LIMIT));
+/// Population-fit and particle-model curves, cycled (as the exported figures).
+pub const CURVES: [Color32; 5] = [
+    from_figure(rgb(figure::CURVES[0])),
+    from_figure(rgb(figure::CURVES[1])),
+    from_figure(rgb(figure::CURVES[2])),
+    from_figure(rgb(figure::CURVES[3])),
+    from_figure(rgb(figure::CURVES[4])),
+];
 /// Warnings.
 pub const WARNING: Color32 = Color32::from_rgb(200, 120, 20);
 /// Failures.

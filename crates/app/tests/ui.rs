@@ -1,5 +1,6 @@
 //! The real app driven through egui_kittest: it opens the demo catalogue, the σ/m slider moves
-//! the plotted halo curve, a short fit shows σ/m, and the results table is exported.
+//! the plotted halo curve, a short fit shows σ/m, the results table is exported, a particle
+//! model is drawn in the population view and the population fit runs.
 
 use std::path::{Path, PathBuf};
 use std::time::{Duration, Instant};
@@ -84,6 +85,38 @@ fn load_drag_fit_and_export() {
         "{text}"
     );
     assert!(text.contains("Kiln D01,sidm"), "{text}");
+
+    // The population view: a particle model's curves follow its sliders, and the population
+    // fit runs the four σ(v)/m models over the SIDM posterior just made.
+    harness.get_by_label("Population").click();
+    harness.run();
+    let _ = harness.get_by_label_contains("σ/m at v = 100 km/s");
+    assert!(harness.query_all_by_label_contains("barn/GeV").count() >= 2);
+    let before = harness.state().particle().clone();
+    harness
+        .get_by_role_and_label(Role::Slider, "α")
+        .set_value_accesskit(1e-4);
+    harness.run();
+    assert_ne!(&before, harness.state().particle());
+    assert!((harness.state().particle().log10_values[2] + 4.0).abs() < 1e-6);
+    harness
+        .get_by_role_and_label(Role::Button, "Fit population models")
+        .click();
+    harness.step();
+    let deadline = Instant::now() + Duration::from_secs(300);
+    while harness.state().fitting_population() && Instant::now() < deadline {
+        std::thread::sleep(Duration::from_millis(50));
+        harness.step();
+    }
+    assert!(
+        !harness.state().fitting_population(),
+        "the population fit did not finish"
+    );
+    harness.run();
+    let fits = harness.state().population_fits().expect("population fits");
+    assert_eq!(fits.len(), 4);
+    assert!(fits.iter().all(|f| f.bic.is_finite() && f.n_data == 1));
+    let _ = harness.get_by_label_contains("(preferred)");
     std::fs::remove_dir_all(&export).ok();
 }
 

@@ -6,12 +6,12 @@ use std::process::ExitCode;
 use std::time::Instant;
 
 use anyhow::{Context, bail};
-use caldera_data::session::{HaloModel, load_session};
-use caldera_data::{OutsideConstraint, read_constraints, read_numeric_csv, write_atomic};
-use caldera_infer::FitSummary;
+use caldera_data::session::load_session;
+use caldera_data::{OutsideConstraint, read_constraints, write_atomic};
 use caldera_infer::population::{
     GalaxyPosterior, PopulationFit, PopulationSettings, Treatment, VelocityModel,
-    effective_sigma_m_cm2_g, fit_population, preferred_by_aic, preferred_by_bic,
+    effective_sigma_m_cm2_g, fit_population, load_folder_posteriors, preferred_by_aic,
+    preferred_by_bic,
 };
 use caldera_infer::sampler::Silent;
 use caldera_infer::session::Session;
@@ -213,57 +213,26 @@ fn load_posteriors(
     session: &Session,
     max_samples: usize,
 ) -> anyhow::Result<(Vec<GalaxyPosterior>, Vec<GalaxyEntry>, Vec<String>)> {
-    let folder = results.join("galaxies");
-    let mut folders: Vec<PathBuf> = std::fs::read_dir(&folder)
+    let loaded = load_folder_posteriors(results, &session.fit.priors.cross_section, max_samples)
         .with_context(|| {
             format!(
-                "{} has no galaxies/ folder: is it the output of `caldera fit CATALOGUE --out DIR`?",
+                "cannot read the SIDM posteriors of {} (the output of `caldera fit CATALOGUE --out DIR`)",
                 results.display()
             )
-        })?
-        .filter_map(Result::ok)
-        .map(|e| e.path())
-        .filter(|p| p.is_dir())
-        .collect();
-    folders.sort();
-    let model = HaloModel::Sidm.name();
-    let (mut posteriors, mut entries, mut skipped) = (Vec::new(), Vec::new(), Vec::new());
-    for galaxy_folder in folders {
-        let summary_path = galaxy_folder.join(format!("{model}.summary.json"));
-        let chain_path = galaxy_folder.join(format!("{model}.chain.csv"));
-        if !summary_path.exists() || !chain_path.exists() {
-            skipped.push(format!("{}: no finished SIDM fit", galaxy_folder.display()));
-            continue;
-        }
-        let summary: FitSummary = serde_json::from_str(
-            &std::fs::read_to_string(&summary_path)
-                .with_context(|| format!("cannot read {}", summary_path.display()))?,
-        )
-        .with_context(|| format!("{} is not a fit summary", summary_path.display()))?;
-        let chain = read_numeric_csv(&chain_path)?;
-        let column = |name: &str| {
-            chain
-                .column(name)
-                .with_context(|| format!("{}: no column '{name}'", chain_path.display()))
-        };
-        let posterior = GalaxyPosterior::from_chain(
-            &summary.galaxy,
-            column("log10_sigma0_kms")?,
-            column("log10_sigma_m_cm2_g")?,
-            &session.fit.priors.cross_section,
-            max_samples,
-        )
-        .with_context(|| format!("{}", chain_path.display()))?;
-        entries.push(GalaxyEntry {
-            galaxy: summary.galaxy.clone(),
+        })?;
+    let entries = loaded
+        .posteriors
+        .iter()
+        .zip(&loaded.converged)
+        .map(|(posterior, &converged)| GalaxyEntry {
+            galaxy: posterior.galaxy.clone(),
             v_rel_kms: posterior.v_rel_kms(),
             sigma_m_cm2_g: posterior.sigma_m_cm2_g(),
             n_samples: posterior.sigma0_kms.len(),
-            converged: summary.converged,
-        });
-        posteriors.push(posterior);
-    }
-    Ok((posteriors, entries, skipped))
+            converged,
+        })
+        .collect();
+    Ok((loaded.posteriors, entries, loaded.skipped))
 }
 
 fn fit_all(

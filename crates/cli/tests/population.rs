@@ -11,8 +11,11 @@ const TRUE_SIGMA0_CM2_G: f64 = 20.0;
 const TRUE_W_KMS: f64 = 150.0;
 
 /// (name, V200 km/s, c200, gas mass Msun, gas scale kpc, disk mass Msun, disk scale kpc,
-/// r_max kpc, seed): invented galaxies from dwarfs to small spirals.
-const GALAXIES: [(&str, f64, f64, f64, f64, f64, f64, f64, u64); 8] = [
+/// r_max kpc, seed) of one invented galaxy.
+type MockGalaxy = (&'static str, f64, f64, f64, f64, f64, f64, f64, u64);
+
+/// Invented galaxies from dwarfs to small spirals.
+const GALAXIES: [MockGalaxy; 8] = [
     ("Mock P1", 35.0, 15.0, 1.5e8, 1.3, 4e7, 0.6, 4.0, 7101),
     ("Mock P2", 50.0, 13.0, 4e8, 2.0, 1.5e8, 1.0, 6.0, 7102),
     ("Mock P3", 70.0, 12.0, 1e9, 3.0, 5e8, 2.0, 10.0, 7103),

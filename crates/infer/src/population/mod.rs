@@ -88,6 +88,106 @@ impl GalaxyPosterior {
     }
 }
 
+impl GalaxyPosterior {
+    /// From a finished SIDM fit held in memory.
+    pub fn from_fit(
+        fit: &crate::FitResult,
+        prior: &CrossSectionPrior,
+        max_samples: usize,
+    ) -> Result<Self, InferError> {
+        let index = |name: &str| {
+            fit.parameters
+                .iter()
+                .position(|p| p.name == name)
+                .ok_or_else(|| {
+                    InferError::Config(format!(
+                        "galaxy '{}': the {} fit has no parameter {name} (population fits need SIDM fits)",
+                        fit.summary.galaxy, fit.summary.model
+                    ))
+                })
+        };
+        let (sigma0, sigma_m) = (index("log10_sigma0_kms")?, index("log10_sigma_m_cm2_g")?);
+        let kept: Vec<(usize, usize)> = fit.chain.kept(fit.burn_in, fit.thin).collect();
+        let column = |p: usize| -> Vec<f64> {
+            kept.iter()
+                .map(|&(s, w)| fit.chain.position(s, w, p))
+                .collect()
+        };
+        Self::from_chain(
+            &fit.summary.galaxy,
+            &column(sigma0),
+            &column(sigma_m),
+            prior,
+            max_samples,
+        )
+    }
+}
+
+/// The SIDM posteriors of a catalogue run's output folder (`caldera fit CATALOGUE --out DIR`):
+/// each `galaxies/<name>/sidm.chain.csv` with its `sidm.summary.json`.
+#[derive(Debug, Default)]
+pub struct FolderPosteriors {
+    pub posteriors: Vec<GalaxyPosterior>,
+    /// Whether each galaxy's chain met the convergence rule (same order).
+    pub converged: Vec<bool>,
+    /// Galaxy folders without a finished SIDM fit.
+    pub skipped: Vec<String>,
+}
+
+/// Reads the SIDM posteriors of a catalogue run's output folder, with the run's σ/m prior.
+pub fn load_folder_posteriors(
+    results: &std::path::Path,
+    prior: &CrossSectionPrior,
+    max_samples: usize,
+) -> Result<FolderPosteriors, InferError> {
+    let folder = results.join("galaxies");
+    let io = |path: &std::path::Path, source| {
+        InferError::Data(caldera_data::DataError::Io {
+            path: path.to_path_buf(),
+            source,
+        })
+    };
+    let mut folders: Vec<std::path::PathBuf> = std::fs::read_dir(&folder)
+        .map_err(|e| io(&folder, e))?
+        .filter_map(Result::ok)
+        .map(|e| e.path())
+        .filter(|p| p.is_dir())
+        .collect();
+    folders.sort();
+    let mut out = FolderPosteriors::default();
+    for galaxy_folder in folders {
+        let summary_path = galaxy_folder.join("sidm.summary.json");
+        let chain_path = galaxy_folder.join("sidm.chain.csv");
+        if !summary_path.exists() || !chain_path.exists() {
+            out.skipped
+                .push(format!("{}: no finished SIDM fit", galaxy_folder.display()));
+            continue;
+        }
+        let text = std::fs::read_to_string(&summary_path).map_err(|e| io(&summary_path, e))?;
+        let summary: crate::FitSummary = serde_json::from_str(&text).map_err(|e| {
+            InferError::Config(format!(
+                "{} is not a fit summary: {e}",
+                summary_path.display()
+            ))
+        })?;
+        let chain = caldera_data::read_numeric_csv(&chain_path)?;
+        let column = |name: &str| {
+            chain.column(name).ok_or_else(|| {
+                InferError::Config(format!("{}: no column '{name}'", chain_path.display()))
+            })
+        };
+        out.posteriors.push(GalaxyPosterior::from_chain(
+            &summary.galaxy,
+            column("log10_sigma0_kms")?,
+            column("log10_sigma_m_cm2_g")?,
+            prior,
+            max_samples,
+        )?);
+        out.converged.push(summary.converged);
+    }
+    Ok(out)
+}
+
 /// One fitted parameter: physical value (not its log) summarised over the posterior.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct FittedParameter {
