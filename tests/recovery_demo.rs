@@ -6,11 +6,18 @@
 //! the test allows up to 4 (binomial probability of more than 4 misses ≈ 2.5%; the run is seeded,
 //! so the outcome is fixed). Chains are capped at 8,000 steps here to keep CI short; a capped
 //! chain still counts (its interval is printed with its convergence flag).
+//!
+//! The same posteriors then go through the population fit: the demo's truths fall with velocity
+//! (7 → 0.2 cm²/g, see demo_galaxies/make_demo.sh), so a velocity-dependent σ(v)/m must be
+//! preferred over a constant σ/m by BIC.
 
 use std::path::Path;
 
 use caldera_data::session::HaloModel;
 use caldera_data::{ReadOptions, read_table};
+use caldera_infer::population::{
+    GalaxyPosterior, PopulationSettings, Treatment, VelocityModel, fit_population, preferred_by_bic,
+};
 use caldera_infer::sampler::{RunConfig, Silent};
 use caldera_infer::{FitConfig, fit_galaxy};
 use serde_json::Value;
@@ -34,6 +41,7 @@ fn demo_truths_fall_inside_their_95_percent_intervals() {
         ..FitConfig::default()
     };
     let (mut checks, mut misses) = (0, 0);
+    let mut posteriors = Vec::new();
     for path in tables {
         let truth_path = path.with_file_name(format!(
             "{}.truth.json",
@@ -48,6 +56,10 @@ fn demo_truths_fall_inside_their_95_percent_intervals() {
         let v_rel_true = truth["sidm"]["v_rel_kms"].as_f64().expect("v_rel truth");
         let table = read_table(&path, &ReadOptions::default()).expect("demo table");
         let result = fit_galaxy(&table, HaloModel::Sidm, &config, &mut Silent).expect("fit");
+        posteriors.push(
+            GalaxyPosterior::from_fit(&result, &config.priors.cross_section, 600)
+                .expect("posterior samples"),
+        );
         let s = &result.summary;
         for (name, truth, interval) in [
             ("sigma/m", sigma_true, s.sigma_m_cm2_g.expect("sigma/m")),
@@ -76,4 +88,33 @@ fn demo_truths_fall_inside_their_95_percent_intervals() {
         misses <= 4,
         "{misses} of {checks} truths outside their 95% intervals"
     );
+
+    let settings = PopulationSettings::default();
+    for treatment in [Treatment::Marginal, Treatment::Joint] {
+        let fits: Vec<_> = VelocityModel::ALL
+            .into_iter()
+            .map(|model| {
+                fit_population(model, treatment, &posteriors, &[], &settings, &mut Silent)
+                    .expect("population fit")
+            })
+            .collect();
+        for fit in &fits {
+            eprintln!(
+                "{treatment:?} {:<10} ln L_max {:>8.2}  AIC {:>7.2}  BIC {:>7.2}  converged {}",
+                fit.model.name(),
+                fit.log_likelihood_max,
+                fit.aic,
+                fit.bic,
+                fit.converged
+            );
+            assert!(fit.bic.is_finite() && fit.aic.is_finite());
+            assert_eq!(fit.n_data, posteriors.len());
+        }
+        let preferred = preferred_by_bic(&fits).expect("a preferred model");
+        assert_ne!(
+            preferred,
+            VelocityModel::Constant,
+            "{treatment:?}: the demo's falling σ/m should not prefer a constant"
+        );
+    }
 }
