@@ -66,8 +66,13 @@ pub struct MockArgs {
     pub cross_section: Option<f64>,
     /// Make σ/m velocity-dependent: σ(v)/m = σ0/m (1 + v²/w²)⁻² with σ0/m = --cross-section
     /// and this turnover velocity w, km/s.
-    #[arg(long, value_name = "KM/S")]
+    #[arg(long, value_name = "KM/S", conflicts_with = "velocity_model")]
     pub fall_off_w: Option<f64>,
+    /// Make σ/m velocity-dependent with any cross-section model, given as for `caldera
+    /// population --particle` (e.g. yukawa:m_chi=10,m_phi=5,alpha=6e-4); --cross-section is then
+    /// not used, and the truth file records the model and the core's ⟨σv⟩/m and ⟨v_rel⟩.
+    #[arg(long, value_name = "SPEC")]
+    pub velocity_model: Option<String>,
     /// Halo-first solution (0 = lowest density).
     #[arg(long, default_value_t = 0)]
     pub branch: usize,
@@ -150,18 +155,26 @@ fn need(value: Option<f64>, flag: &str, halo: &str) -> anyhow::Result<f64> {
 }
 
 impl MockArgs {
+    /// The constant σ/m of an SIDM halo; NaN (written as null) when --velocity-model replaces it.
+    fn constant_sigma_m(&self, halo: &str) -> anyhow::Result<f64> {
+        if self.velocity_model.is_some() {
+            return Ok(f64::NAN);
+        }
+        need(self.cross_section, "--cross-section", halo)
+    }
+
     fn spec(&self) -> anyhow::Result<MockSpec> {
         let halo = match self.halo {
             MockHaloKind::Sidm => MockHalo::SidmHaloFirst {
                 v200_kms: need(self.v200, "--v200", "sidm")?,
                 c200: need(self.c200, "--c200", "sidm")?,
-                sigma_m_cm2_g: need(self.cross_section, "--cross-section", "sidm")?,
+                sigma_m_cm2_g: self.constant_sigma_m("sidm")?,
                 branch: self.branch,
             },
             MockHaloKind::SidmCore => MockHalo::SidmCoreFirst {
                 rho0_msun_kpc3: need(self.rho0, "--rho0", "sidm-core")?,
                 sigma0_kms: need(self.sigma0, "--sigma0", "sidm-core")?,
-                sigma_m_cm2_g: need(self.cross_section, "--cross-section", "sidm-core")?,
+                sigma_m_cm2_g: self.constant_sigma_m("sidm-core")?,
             },
             MockHaloKind::Nfw => MockHalo::Nfw {
                 v200_kms: need(self.v200, "--v200", "nfw")?,
@@ -206,12 +219,13 @@ impl MockArgs {
             inclination_deg: self.inclination,
             inclination_err_deg: self.inclination_err,
             notes: self.notes.clone(),
-            velocity_dependence: match self.fall_off_w {
-                None => None,
-                Some(w) => Some(caldera_physics::CrossSection::fall_off(
+            velocity_dependence: match (self.fall_off_w, &self.velocity_model) {
+                (Some(w), _) => Some(caldera_physics::CrossSection::fall_off(
                     need(self.cross_section, "--cross-section", "sidm")?,
                     w,
                 )?),
+                (None, Some(spec)) => Some(crate::population::parse_particle(spec)?),
+                (None, None) => None,
             },
         })
     }

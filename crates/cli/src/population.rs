@@ -130,7 +130,7 @@ struct Report {
 }
 
 /// Parses `kind:key=value,...` into a cross-section.
-fn parse_particle(spec: &str) -> anyhow::Result<CrossSection> {
+pub(crate) fn parse_particle(spec: &str) -> anyhow::Result<CrossSection> {
     let (kind, rest) = spec.split_once(':').unwrap_or((spec, ""));
     let mut values = std::collections::BTreeMap::new();
     for pair in rest.split(',').filter(|p| !p.trim().is_empty()) {

@@ -314,6 +314,46 @@ impl CrossSection {
         })
     }
 
+    /// Every dispersion σ0 (km/s, ascending, between 0.01 and 10⁵ km/s) at which the rate
+    /// condition puts ρ1 = `rho1_msun_kpc3`: one for a constant σ/m; a velocity-dependent σ(v)/m
+    /// whose ⟨σv⟩/m rises and then falls with σ0 can have two or more.
+    #[must_use]
+    pub fn sigma0_roots_for_rate_density_kms(&self, rho1_msun_kpc3: f64, age_gyr: f64) -> Vec<f64> {
+        if let Self::Constant { .. } = *self {
+            return self
+                .sigma0_for_rate_density_kms(rho1_msun_kpc3, age_gyr)
+                .into_iter()
+                .collect();
+        }
+        let excess = |ln_sigma0: f64| -> f64 {
+            (rho1_msun_kpc3 * self.sigma_v_over_m(ln_sigma0.exp()) * gyr_to_kpc_per_kms(age_gyr))
+                .ln()
+        };
+        let (low, high) = ((0.01f64).ln(), (1e5f64).ln());
+        let steps = 120;
+        let mut roots = Vec::new();
+        let mut previous = (low, excess(low));
+        for k in 1..=steps {
+            let x = low + (high - low) * f64::from(k) / f64::from(steps);
+            let here = (x, excess(x));
+            if previous.1.is_finite()
+                && here.1.is_finite()
+                && (previous.1 < 0.0) != (here.1 < 0.0)
+                && let Ok(root) = brent(
+                    excess,
+                    previous.0,
+                    here.0,
+                    1e-13,
+                    "dispersion from the rate condition",
+                )
+            {
+                roots.push(root.exp());
+            }
+            previous = here;
+        }
+        roots
+    }
+
     /// True when the cross-section vanishes at every velocity (the collisionless limit).
     #[must_use]
     pub fn is_zero(&self) -> bool {

@@ -5,11 +5,11 @@ use std::sync::OnceLock;
 
 use super::SidmSetup;
 use super::jeans::{GridSolution, JeansProblem, SEARCH_STEP_LN_XI, STEP_LN_XI};
-use crate::PhysicsError;
 use crate::baryons::{EnclosedMass, NoBaryons, ScaledMass};
 use crate::halo::{HaloProfile, Nfw, nfw_mass_function};
 use crate::roots::brent;
 use crate::units::G_KPC_KMS2_PER_MSUN;
+use crate::{CrossSection, PhysicsError};
 
 /// Largest ξ1 scanned for baryon-free candidates (ρ0/ρ1 up to ~10⁸).
 const MAX_SCAN_XI: f64 = 1e4;
@@ -85,6 +85,9 @@ struct Candidate {
 /// For a match at ξ1 = e^t with universal (ψ, m): the mass ratio fixes x = r1/r_s, hence r1 and
 /// ρ1 on the target NFW; the rate condition gives σ0, and ρ0 = ρ1 e^ψ. The candidate is a
 /// solution when the core scale this implies, r_c = σ0/√(4πGρ0), puts ξ1 at r1.
+///
+/// A velocity-dependent σ(v)/m can satisfy the rate condition at several σ0 (⟨σv⟩/m rises with
+/// σ0, then falls where σ(v) does): `root` picks the `root`-th lowest, each a branch of its own.
 fn candidate(
     setup: &SidmSetup,
     nfw: &Nfw,
@@ -92,16 +95,24 @@ fn candidate(
     psi: f64,
     m: f64,
     guess: Option<f64>,
+    root: usize,
 ) -> Option<Candidate> {
     let xi = t.exp();
     let mass_ratio = m * psi.exp() / (xi * xi * xi);
     let x = invert_nfw_mass_ratio(mass_ratio, guess).ok()?;
     let r1 = x * nfw.r_s_kpc;
     let rho1 = nfw.density_msun_kpc3(r1);
-    let sigma0 = setup
-        .cross_section
-        .sigma0_for_rate_density_kms(rho1, setup.age_gyr)
-        .ok()?;
+    let sigma0 = if root == 0 {
+        setup
+            .cross_section
+            .sigma0_for_rate_density_kms(rho1, setup.age_gyr)
+            .ok()?
+    } else {
+        *setup
+            .cross_section
+            .sigma0_roots_for_rate_density_kms(rho1, setup.age_gyr)
+            .get(root)?
+    };
     let rho0 = rho1 * psi.exp();
     let core_scale = sigma0 / (4.0 * std::f64::consts::PI * G_KPC_KMS2_PER_MSUN * rho0).sqrt();
     Some(Candidate {
@@ -112,15 +123,35 @@ fn candidate(
     })
 }
 
-/// Baryon-free solutions (ρ0, σ0) for `nfw`, in order of increasing ρ0.
+/// Baryon-free solutions (ρ0, σ0) for `nfw`, in order of increasing ρ0: one scan per root of the
+/// rate condition (one for a constant σ/m; a velocity-dependent one may have more).
 pub(super) fn baryon_free_seeds(
     setup: &SidmSetup,
     nfw: &Nfw,
 ) -> Result<Vec<(f64, f64)>, PhysicsError> {
+    let roots = if matches!(setup.cross_section, CrossSection::Constant { .. }) {
+        1
+    } else {
+        MAX_RATE_ROOTS
+    };
+    let mut seeds = Vec::new();
+    for root in 0..roots {
+        seeds.extend(baryon_free_seeds_on_root(setup, nfw, root));
+    }
+    seeds.sort_by(|a, b| a.0.total_cmp(&b.0));
+    seeds.dedup_by(|a, b| (a.0 / b.0 - 1.0).abs() < 1e-9);
+    Ok(seeds)
+}
+
+/// Roots of the rate condition followed as separate branches of a velocity-dependent σ(v)/m.
+const MAX_RATE_ROOTS: usize = 3;
+
+/// The scan of [`baryon_free_seeds`] along the `root`-th root of the rate condition.
+fn baryon_free_seeds_on_root(setup: &SidmSetup, nfw: &Nfw, root: usize) -> Vec<(f64, f64)> {
     let grid = universal_profile();
     let on_profile = |t: f64, guess: Option<f64>| {
         let (psi, m) = grid.state_at(t);
-        candidate(setup, nfw, t, psi, m, guess)
+        candidate(setup, nfw, t, psi, m, guess, root)
     };
     let root_between = |t_low: f64, t_high: f64| {
         let root = brent(
@@ -139,7 +170,13 @@ pub(super) fn baryon_free_seeds(
     let mut guess = None;
     for (i, node) in grid.nodes.iter().enumerate() {
         let t = grid.t_start + i as f64 * grid.step_ln_xi;
-        let Some(here) = candidate(setup, nfw, t, node.psi, node.m, guess) else {
+        let Some(here) = candidate(setup, nfw, t, node.psi, node.m, guess, root) else {
+            // Leaving the region where this root exists (a velocity-dependent σ(v)/m whose
+            // rate condition loses its roots at a fold): a root may lie between the last node
+            // and the edge.
+            if let Some(&(t_before, d_before)) = recent.last() {
+                seeds.extend(seed_near_edge(&on_profile, t_before, d_before, t));
+            }
             recent.clear();
             guess = None;
             continue;
@@ -149,7 +186,8 @@ pub(super) fn baryon_free_seeds(
         if recent.is_empty() && i > 0 && d > 0.0 {
             // Entering the matchable region (mass ratio just above 1/2): there x → 0 and the
             // discrepancy → −∞, so a root may lie between the threshold and this node.
-            if let Some(seed) = seed_near_threshold(setup, nfw, grid, t - grid.step_ln_xi, t) {
+            if let Some(seed) = seed_near_threshold(setup, nfw, grid, t - grid.step_ln_xi, t, root)
+            {
                 seeds.push(seed);
             }
         }
@@ -179,8 +217,40 @@ pub(super) fn baryon_free_seeds(
             recent.remove(0);
         }
     }
-    seeds.sort_by(|a, b| a.0.total_cmp(&b.0));
-    Ok(seeds)
+    seeds
+}
+
+/// Between a node `t_valid` with a candidate (discrepancy `d_valid`) and `t_invalid` without
+/// one, finds the edge of the candidates' existence by bisection and returns the root of the
+/// discrepancy between `t_valid` and the edge, if it changes sign there.
+fn seed_near_edge(
+    on_profile: &dyn Fn(f64, Option<f64>) -> Option<Candidate>,
+    t_valid: f64,
+    d_valid: f64,
+    t_invalid: f64,
+) -> Option<(f64, f64)> {
+    let (mut inside, mut outside) = (t_valid, t_invalid);
+    for _ in 0..50 {
+        let middle = 0.5 * (inside + outside);
+        if on_profile(middle, None).is_some() {
+            inside = middle;
+        } else {
+            outside = middle;
+        }
+    }
+    let edge = on_profile(inside, None)?;
+    if (edge.discrepancy < 0.0) == (d_valid < 0.0) {
+        return None;
+    }
+    let root = brent(
+        |t| on_profile(t, None).map_or(f64::NAN, |c| c.discrepancy),
+        t_valid,
+        inside,
+        1e-13,
+        "matching scan near the edge of the rate condition's roots",
+    )
+    .ok()?;
+    on_profile(root, None).map(|c| (c.rho0_msun_kpc3, c.sigma0_kms))
 }
 
 /// Locates the extremum of the discrepancy in [t_low, t_high] by golden-section search; when it
@@ -230,6 +300,7 @@ fn seed_near_threshold(
     grid: &GridSolution,
     t_low: f64,
     t_high: f64,
+    root: usize,
 ) -> Option<(f64, f64)> {
     let ratio_excess = |t: f64| {
         let (psi, m) = grid.state_at(t);
@@ -238,7 +309,7 @@ fn seed_near_threshold(
     let threshold = brent(ratio_excess, t_low, t_high, 1e-15, "mass-ratio threshold").ok()?;
     let on_profile = |t: f64| {
         let (psi, m) = grid.state_at(t);
-        candidate(setup, nfw, t, psi, m, None)
+        candidate(setup, nfw, t, psi, m, None, root)
     };
     let mut offset = 1e-3 * (t_high - threshold);
     for _ in 0..6 {

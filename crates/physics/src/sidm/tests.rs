@@ -273,3 +273,29 @@ fn velocity_dependent_cross_sections_drive_the_rate_condition() {
     assert!(back.rho0_msun_kpc3() <= 8e7 * (1.0 + 1e-6));
     assert_relative_eq!(back.nfw().r_s_kpc, start.nfw().r_s_kpc, max_relative = 1e-6);
 }
+
+#[test]
+fn halo_first_follows_every_root_of_a_velocity_dependent_rate_condition() {
+    // For σ0/m = 1.57 cm²/g, w = 300 km/s and this dwarf halo, the rate condition's lower root in
+    // σ0 disappears (⟨σv⟩/m peaks and falls) just before the match: the solution lies on the
+    // upper root, close to the fold. Every solution found must round-trip core-first with the
+    // same σ0 and satisfy the matching (same NFW halo).
+    let cosmology = Cosmology::default();
+    let nfw = Nfw::from_v200_c200(60.0, 12.0, &cosmology).expect("valid");
+    for (sigma0_m, w) in [(0.3, 300.0), (1.57, 300.0), (3.0, 300.0), (1.0, 150.0)] {
+        let s = SidmSetup {
+            cross_section: CrossSection::fall_off(sigma0_m, w).expect("valid"),
+            ..setup(1.0, &NoBaryons)
+        };
+        let all = halo_first_all(&s, &nfw).expect("a solution");
+        for halo in all {
+            let again = core_first(&s, halo.rho0_msun_kpc3(), halo.sigma0_kms()).expect("solves");
+            assert_relative_eq!(again.nfw().r_s_kpc, nfw.r_s_kpc, max_relative = 1e-5);
+            assert_relative_eq!(
+                again.nfw().rho_s_msun_kpc3,
+                nfw.rho_s_msun_kpc3,
+                max_relative = 1e-5
+            );
+        }
+    }
+}
