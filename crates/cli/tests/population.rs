@@ -169,3 +169,55 @@ fn population_and_joint_fits_recover_a_mock_catalogues_fall_off() {
     assert!(results.join("population/population_models.svg").exists());
     std::fs::remove_dir_all(&dir).ok();
 }
+
+#[test]
+fn mocks_take_any_cross_section_model() {
+    let dir = std::env::temp_dir().join(format!("caldera-velocity-mock-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).expect("temporary folder");
+    let table = dir.join("mock_y.ecsv");
+    let table_arg = table.to_string_lossy().into_owned();
+    let mock = |spec: &str| {
+        caldera(&[
+            "--quiet",
+            "mock",
+            "--name",
+            "Mock Y",
+            "--halo",
+            "sidm",
+            "--v200",
+            "60",
+            "--c200",
+            "12",
+            "--velocity-model",
+            spec,
+            "--r-max",
+            "8",
+            "--force",
+            "--out",
+            &table_arg,
+        ])
+    };
+    let (code, _, stderr) = mock("yukawa:m_chi=10,m_phi=5,alpha=1e-4");
+    assert_eq!(code, 0, "{stderr}");
+    let truth: serde_json::Value = serde_json::from_str(
+        &std::fs::read_to_string(dir.join("mock_y.truth.json")).expect("truth file"),
+    )
+    .expect("truth JSON");
+    assert_eq!(
+        truth["spec"]["velocity_dependence"]["Yukawa"]["alpha"].as_f64(),
+        Some(1e-4)
+    );
+    // The truth's rate is the model's Maxwellian average at the core's σ0.
+    let model = caldera_physics::CrossSection::yukawa(10.0, 5.0, 1e-4).expect("valid");
+    let sigma0 = truth["sidm"]["sigma0_kms"].as_f64().expect("sigma0");
+    let rate = truth["sidm"]["sigma_v_over_m_cm2_g_kms"]
+        .as_f64()
+        .expect("rate");
+    let expected = model.sigma_v_over_m_cm2_g_kms(sigma0);
+    assert!((rate / expected - 1.0).abs() < 1e-9, "{rate} vs {expected}");
+
+    let (code, _, stderr) = mock("yukawa:m_chi=10,alpha=1e-4");
+    assert_eq!(code, 1);
+    assert!(stderr.contains("missing 'm_phi'"), "{stderr}");
+    std::fs::remove_dir_all(&dir).ok();
+}
