@@ -65,7 +65,7 @@ pub struct PopulationArgs {
     #[arg(long, default_value_t = 1)]
     pub seed: u64,
     /// Step cap of each population sampler.
-    #[arg(long, default_value_t = 6000)]
+    #[arg(long, default_value_t = 10_000)]
     pub max_steps: usize,
     /// Folder for the report, table and figure (default: RESULTS/population).
     #[arg(long, value_name = "DIR")]
@@ -381,7 +381,14 @@ fn figure(report: &Report, galaxies: &[GalaxyPosterior]) -> PopulationFigure {
         .enumerate()
         .map(|(group, fit)| PopulationCurve {
             group,
-            label: format!("{} (median of fit)", fit.model.name()),
+            label: format!(
+                "{} ({} fit, median)",
+                fit.model.name(),
+                match fit.treatment {
+                    Treatment::Marginal => "population",
+                    Treatment::Joint => "joint",
+                }
+            ),
             points: speeds
                 .iter()
                 .zip(fit.effective_band(&speeds, 200))
@@ -403,7 +410,7 @@ fn figure(report: &Report, galaxies: &[GalaxyPosterior]) -> PopulationFigure {
             dashed: false,
         });
         curves.push(PopulationCurve {
-            label: format!("{}: σ(v)/m", particle.spec),
+            label: format!("{}: σ(v)/m at speed v", particle.spec),
             points: particle
                 .curve
                 .iter()

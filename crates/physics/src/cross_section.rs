@@ -367,7 +367,8 @@ impl CrossSection {
 }
 
 /// Nodes and weights of the 8-point Gauss–Legendre rule on [−1, 1] (Abramowitz & Stegun 1964,
-/// table 25.4; checked in the tests by exactness on polynomials up to degree 15).
+/// table 25.4; written from memory and verified in the tests by exactness on polynomials up to
+/// degree 15, which determines the rule).
 const GAUSS_LEGENDRE_8: [(f64, f64); 4] = [
     (0.183_434_642_495_649_8, 0.362_683_783_378_362),
     (0.525_532_409_916_329, 0.313_706_645_877_887_3),

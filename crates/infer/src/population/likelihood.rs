@@ -59,8 +59,8 @@ pub struct GalaxyPosterior {
     marginal: Vec<f64>,
 }
 
-/// Silverman's rule of thumb, h = 0.9 min(s, IQR/1.34) n^(−1/5) (Silverman 1986, eq. 3.31),
-/// floored at 0.02 dex.
+/// Silverman's rule of thumb, h = 0.9 min(s, IQR/1.34) n^(−1/5) (Silverman 1986, eq. 3.31; cited
+/// from memory), floored at 0.02 dex (common practice).
 fn silverman_bandwidth(values: &[f64]) -> f64 {
     let n = values.len() as f64;
     let mean = values.iter().sum::<f64>() / n;

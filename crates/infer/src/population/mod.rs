@@ -4,9 +4,9 @@
 //! See [`likelihood`] for how the galaxies enter: the *marginal* treatment is the population fit
 //! over the σ/m–velocity plane, the *joint* treatment shares one σ(v)/m among all galaxies' Jeans
 //! models by importance reweighting of their chains. Reweighting reuses the chains a catalogue run
-//! already made (a direct hierarchical sampler would re-solve every galaxy's Jeans model at every
-//! step: hours instead of seconds for the demo catalogue), at the price of a kernel width in
-//! log σ/m; it is accurate when each galaxy's chain covers the region the shared model picks,
+//! already made (a direct hierarchical sampler would explore every galaxy's halo and nuisance
+//! parameters at once — about 100 dimensions for the 16 demo galaxies — re-solving each galaxy's
+//! Jeans model at every step), at the price of a kernel width in log σ/m; it is accurate when each galaxy's chain covers the region the shared model picks,
 //! which holds because each galaxy's prior on σ/m spans that region uniformly in log.
 
 pub mod likelihood;
@@ -53,7 +53,7 @@ impl Default for PopulationSettings {
             max_samples_per_galaxy: 600,
             n_walkers: 24,
             run: RunConfig {
-                max_steps: 6000,
+                max_steps: 10_000,
                 ..RunConfig::default()
             },
             map_starts: 6,
@@ -95,6 +95,9 @@ impl GalaxyPosterior {
         prior: &CrossSectionPrior,
         max_samples: usize,
     ) -> Result<Self, InferError> {
+        if !prior.logarithmic {
+            return Self::from_chain(&fit.summary.galaxy, &[], &[], prior, max_samples);
+        }
         let index = |name: &str| {
             fit.parameters
                 .iter()
