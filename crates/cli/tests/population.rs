@@ -144,7 +144,7 @@ fn population_and_joint_fits_recover_a_mock_catalogues_fall_off() {
     assert_eq!(report["constraints"].as_array().map(Vec::len), Some(1));
     let find = |fits: &serde_json::Value, model: &str| -> serde_json::Value {
         fits.as_array()
-            .and_then(|fs| fs.iter().find(|f| f["model"] == model))
+            .and_then(|fs| fs.iter().find(|f| f["name"] == model))
             .cloned()
             .unwrap_or_else(|| panic!("model {model} in {fits}"))
     };

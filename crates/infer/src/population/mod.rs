@@ -206,6 +206,8 @@ pub struct FittedParameter {
 /// One population model fitted under one treatment.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct PopulationFit {
+    /// The model (its name in JSON: "constant", "fall-off", "yukawa", "resonance").
+    #[serde(rename = "name")]
     pub model: VelocityModel,
     pub treatment: Treatment,
     pub formula: String,
