@@ -111,7 +111,7 @@ pub struct MockTruth {
 pub enum MockError {
     #[error("invalid mock specification: {0}")]
     Spec(String),
-    #[error("cannot build the mock's mass model: {0}")]
+    #[error("cannot build the mock's mass model")]
     Model(#[from] PhysicsError),
 }
 
