@@ -19,7 +19,7 @@ use caldera_report::tables::{latex_table, results_table};
 use egui::Color32;
 
 use crate::live::{LiveCurve, live_curve};
-use crate::population::{ParticleModel, PopulationJob};
+use crate::population::{ParticleModel, PopulationInputs, PopulationJob};
 use crate::theme;
 use crate::worker::{FitJob, FitMessage};
 
@@ -133,6 +133,7 @@ pub(crate) struct Runtime {
     pub(crate) particle: ParticleModel,
     pub(crate) population_job: Option<PopulationJob>,
     pub(crate) population: Option<Vec<PopulationFit>>,
+    pub(crate) population_inputs: Option<PopulationInputs>,
 }
 
 /// The app: the saved session and the runtime.
@@ -177,6 +178,7 @@ impl CalderaApp {
                 particle: ParticleModel::default(),
                 population_job: None,
                 population: None,
+                population_inputs: None,
             },
         };
         if let Some(path) = options.session {
@@ -511,7 +513,13 @@ impl CalderaApp {
             Command::UseBestFit => self.use_best_fit(),
             Command::Particle(particle) => self.runtime.particle = particle,
             Command::FitPopulation => {
-                let (posteriors, _) = self.population_posteriors();
+                self.refresh_population_inputs();
+                let posteriors = self
+                    .runtime
+                    .population_inputs
+                    .as_ref()
+                    .map(|i| i.posteriors.clone())
+                    .unwrap_or_default();
                 if !posteriors.is_empty() && self.runtime.population_job.is_none() {
                     let settings = PopulationSettings {
                         seed: self.session.fit.seed,
@@ -728,6 +736,9 @@ impl eframe::App for CalderaApp {
         let ctx = ui.ctx().clone();
         self.poll_worker();
         self.poll_population();
+        if self.runtime.view == View::Population {
+            self.refresh_population_inputs();
+        }
         if let Some(receiver) = &self.runtime.dialog
             && let Ok(picked) = receiver.try_recv()
         {

@@ -143,10 +143,36 @@ pub fn log_curves(cross_section: &CrossSection) -> (Vec<[f64; 2]>, Vec<[f64; 2]>
     (unaveraged, averaged)
 }
 
+/// The SIDM posteriors the population fit would use, cached until the fits or the session's
+/// folder change (reading a catalogue run's chains every frame would stall the window).
+pub struct PopulationInputs {
+    key: (Vec<(String, usize)>, Option<std::path::PathBuf>),
+    pub posteriors: Vec<GalaxyPosterior>,
+    pub problems: Vec<String>,
+}
+
 impl CalderaApp {
-    /// The SIDM posteriors available: fits made in this session first, then the chains of a
-    /// catalogue run's folder when the session was opened from one. Also says what is missing.
-    pub(crate) fn population_posteriors(&self) -> (Vec<GalaxyPosterior>, Vec<String>) {
+    /// Recomputes [`PopulationInputs`] when the SIDM fits in memory or the session's folder
+    /// changed: fits made in this session first, then the chains of a catalogue run's folder
+    /// when the session was opened from one.
+    pub(crate) fn refresh_population_inputs(&mut self) {
+        let key = (
+            self.runtime
+                .fits
+                .iter()
+                .filter(|((_, model), _)| *model == HaloModel::Sidm)
+                .map(|((galaxy, _), fit)| (galaxy.clone(), fit.summary.n_samples))
+                .collect::<Vec<_>>(),
+            self.runtime.session_path.clone(),
+        );
+        if self
+            .runtime
+            .population_inputs
+            .as_ref()
+            .is_some_and(|inputs| inputs.key == key)
+        {
+            return;
+        }
         let prior = self.session.fit.priors.cross_section;
         let max = PopulationSettings::default().max_samples_per_galaxy;
         let mut posteriors: Vec<GalaxyPosterior> = Vec::new();
@@ -160,7 +186,7 @@ impl CalderaApp {
                 Err(e) => problems.push(format!("{galaxy}: {e}")),
             }
         }
-        if let Some(folder) = self.runtime.session_path.as_ref().and_then(|p| p.parent())
+        if let Some(folder) = key.1.as_ref().and_then(|p| p.parent())
             && folder.join("galaxies").is_dir()
         {
             match load_folder_posteriors(folder, &prior, max) {
@@ -175,7 +201,11 @@ impl CalderaApp {
             }
         }
         posteriors.sort_by(|a, b| a.galaxy.cmp(&b.galaxy));
-        (posteriors, problems)
+        self.runtime.population_inputs = Some(PopulationInputs {
+            key,
+            posteriors,
+            problems,
+        });
     }
 
     /// The population view's side panel.
@@ -235,10 +265,15 @@ impl CalderaApp {
 
         ui.separator();
         ui.heading("Population fit");
-        let (posteriors, problems) = self.population_posteriors();
+        let (count, problems) = self
+            .runtime
+            .population_inputs
+            .as_ref()
+            .map_or((0, &[][..]), |i| {
+                (i.posteriors.len(), i.problems.as_slice())
+            });
         ui.label(format!(
-            "{} galaxies with an SIDM posterior (fits made here, or chains of an opened catalogue-run folder)",
-            posteriors.len()
+            "{count} galaxies with an SIDM posterior (fits made here, or chains of an opened catalogue-run folder)"
         ));
         for problem in problems {
             ui.colored_label(theme::WARNING, problem);
@@ -253,7 +288,7 @@ impl CalderaApp {
             });
         } else if ui
             .add_enabled(
-                !posteriors.is_empty(),
+                count > 0,
                 egui::Button::new("Fit population models"),
             )
             .on_hover_text("Constant, fall-off, Yukawa and resonance σ(v)/m fitted to every galaxy's σ/m posterior at its velocity; compared by BIC")
