@@ -11,51 +11,8 @@ use caldera_physics::CrossSection;
 use serde::Deserialize;
 
 #[derive(Deserialize)]
-#[serde(tag = "kind", rename_all = "snake_case")]
-enum ModelRecord {
-    FallOff {
-        sigma0_cm2_g: f64,
-        w_kms: f64,
-    },
-    Yukawa {
-        dm_mass_gev: f64,
-        mediator_mass_mev: f64,
-        alpha: f64,
-    },
-    Resonance {
-        dm_mass_gev: f64,
-        delta: f64,
-        gamma: f64,
-        background_cm2_g: f64,
-    },
-}
-
-impl ModelRecord {
-    fn cross_section(&self) -> CrossSection {
-        match *self {
-            Self::FallOff {
-                sigma0_cm2_g,
-                w_kms,
-            } => CrossSection::fall_off(sigma0_cm2_g, w_kms),
-            Self::Yukawa {
-                dm_mass_gev,
-                mediator_mass_mev,
-                alpha,
-            } => CrossSection::yukawa(dm_mass_gev, mediator_mass_mev, alpha),
-            Self::Resonance {
-                dm_mass_gev,
-                delta,
-                gamma,
-                background_cm2_g,
-            } => CrossSection::resonance(dm_mass_gev, delta, gamma, background_cm2_g),
-        }
-        .expect("fixture models are valid")
-    }
-}
-
-#[derive(Deserialize)]
 struct Average {
-    model: ModelRecord,
+    model: CrossSection,
     sigma0_kms: Vec<f64>,
     sigma_v_over_m_cm2_g_kms: Vec<f64>,
     speeds_kms: Vec<f64>,
@@ -87,7 +44,7 @@ fn cross_sections_and_maxwellian_averages_match_scipy() {
     let fixture: Fixture = read_fixture("cross_section_scipy.json");
     let mut worst: f64 = 0.0;
     for case in &fixture.averages {
-        let model = case.model.cross_section();
+        let model = case.model;
         for (&v, &expected) in case.speeds_kms.iter().zip(&case.sigma_m_cm2_g) {
             // The small-R series of the Yukawa shape differs from the closed form by < 1e-9.
             let error = relative(model.sigma_m_cm2_g(v), expected);

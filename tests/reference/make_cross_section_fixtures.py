@@ -96,6 +96,15 @@ SIGMA0S = [3.0, 10.0, 30.0, 100.0, 300.0, 1000.0]
 SPEEDS = [1.0, 30.0, 100.0, 300.0, 1000.0, 3000.0]
 
 
+SERDE_NAMES = {"fall_off": "FallOff", "yukawa": "Yukawa", "resonance": "Resonance"}
+
+
+def as_caldera(model):
+    """The model in the form Caldera's CrossSection reads: {"FallOff": {"sigma0_cm2_g": ...}}."""
+    fields = {k: v for k, v in model.items() if k != "kind"}
+    return {SERDE_NAMES[model["kind"]]: fields}
+
+
 def silverman(values):
     values = np.asarray(values)
     sd = values.std(ddof=1)
@@ -131,7 +140,7 @@ def main():
         "source": "scipy %s quad / gaussian_kde; astropy constants" % scipy.__version__,
         "averages": [
             {
-                "model": model,
+                "model": as_caldera(model),
                 "sigma0_kms": SIGMA0S,
                 "sigma_v_over_m_cm2_g_kms": [sigma_v_average(model, s) for s in SIGMA0S],
                 "speeds_kms": SPEEDS,

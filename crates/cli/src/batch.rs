@@ -375,13 +375,11 @@ fn rebuild_outputs(out: &Path, mut session: Session) -> anyhow::Result<usize> {
         .iter()
         .filter(|s| s.model == HaloModel::Sidm.name())
         .filter_map(|s| {
-            let (v, sm) = (s.v_rel_kms?, s.sigma_m_cm2_g?);
-            Some(PopulationPoint {
-                name: s.galaxy.clone(),
-                v_rel_kms: (v.median, v.p16, v.p84),
-                sigma_m_cm2_g: (sm.median, sm.p16, sm.p84),
-                upper95_cm2_g: sm.upper95,
-            })
+            Some(PopulationPoint::new(
+                &s.galaxy,
+                s.v_rel_kms.as_ref()?,
+                s.sigma_m_cm2_g.as_ref()?,
+            ))
         })
         .collect();
     if !points.is_empty() {

@@ -358,17 +358,16 @@ fn plotted_speeds(galaxies: &[GalaxyEntry], constraints: &[OutsideConstraint]) -
     }
 }
 
-fn figure(report: &Report, galaxies: &[GalaxyPosterior]) -> PopulationFigure {
-    let points = galaxies
+fn figure(report: &Report) -> PopulationFigure {
+    let points = report
+        .galaxies
         .iter()
         .filter_map(|g| {
-            let (v, s) = (g.v_rel_kms()?, g.sigma_m_cm2_g()?);
-            Some(PopulationPoint {
-                name: g.galaxy.clone(),
-                v_rel_kms: (v.median, v.p16, v.p84),
-                sigma_m_cm2_g: (s.median, s.p16, s.p84),
-                upper95_cm2_g: s.upper95,
-            })
+            Some(PopulationPoint::new(
+                &g.galaxy,
+                g.v_rel_kms.as_ref()?,
+                g.sigma_m_cm2_g.as_ref()?,
+            ))
         })
         .collect();
     let speeds = plotted_speeds(&report.galaxies, &report.constraints);
@@ -542,7 +541,7 @@ pub(crate) fn run(args: &PopulationArgs, verbosity: Verbosity) -> anyhow::Result
     std::fs::create_dir_all(&out).with_context(|| format!("cannot create {}", out.display()))?;
     let json = serde_json::to_string_pretty(&report)? + "\n";
     write_atomic(&out.join("population.json"), json.as_bytes())?;
-    let figure = figure(&report, &galaxies);
+    let figure = figure(&report);
     save_figure(&figure, &out.join("population_models.svg"))?;
     save_figure(&figure, &out.join("population_models.png"))?;
     if args.json {

@@ -45,6 +45,21 @@ fn read_text(path: &Path) -> Result<String, DataError> {
     })
 }
 
+/// The comma-separated records of `text` with their 1-based line numbers, skipping blank lines
+/// and `#` comments.
+fn csv_records<'a>(
+    text: &'a str,
+    path: &'a Path,
+) -> impl Iterator<Item = Result<(usize, Vec<String>), DataError>> + 'a {
+    text.lines()
+        .enumerate()
+        .map(|(index, line)| (index + 1, line.trim()))
+        .filter(|(_, line)| !line.is_empty() && !line.starts_with('#'))
+        .map(move |(line_number, line)| {
+            split_cells(line, Some(','), path, line_number).map(|cells| (line_number, cells))
+        })
+}
+
 /// Reads a numeric CSV file (a posterior chain).
 pub fn read_numeric_csv(path: &Path) -> Result<NumericTable, DataError> {
     parse_numeric_csv(&read_text(path)?, path)
@@ -54,13 +69,8 @@ pub fn read_numeric_csv(path: &Path) -> Result<NumericTable, DataError> {
 pub fn parse_numeric_csv(text: &str, path: &Path) -> Result<NumericTable, DataError> {
     let mut headers: Option<Vec<String>> = None;
     let mut columns: Vec<Vec<f64>> = Vec::new();
-    for (index, line) in text.lines().enumerate() {
-        let line_number = index + 1;
-        let trimmed = line.trim();
-        if trimmed.is_empty() || trimmed.starts_with('#') {
-            continue;
-        }
-        let cells = split_cells(trimmed, Some(','), path, line_number)?;
+    for record in csv_records(text, path) {
+        let (line_number, cells) = record?;
         let Some(names) = &headers else {
             columns = vec![Vec::new(); cells.len()];
             headers = Some(cells.iter().map(|c| c.trim().to_string()).collect());
@@ -120,6 +130,13 @@ pub struct OutsideConstraint {
 pub const CONSTRAINT_COLUMNS: [&str; 5] =
     ["label", "v_rel_kms", "sigma_m_cm2_g", "error_cm2_g", "kind"];
 
+// Positions in CONSTRAINT_COLUMNS.
+const LABEL: usize = 0;
+const V_REL: usize = 1;
+const SIGMA_M: usize = 2;
+const ERROR: usize = 3;
+const KIND: usize = 4;
+
 /// Reads a table of outside constraints: CSV with the columns of [`CONSTRAINT_COLUMNS`]; `kind`
 /// is `measurement` (value ± error) or `upper95` (a 95% upper limit; error left empty).
 pub fn read_constraints(path: &Path) -> Result<Vec<OutsideConstraint>, DataError> {
@@ -130,13 +147,8 @@ pub fn read_constraints(path: &Path) -> Result<Vec<OutsideConstraint>, DataError
 pub fn parse_constraints(text: &str, path: &Path) -> Result<Vec<OutsideConstraint>, DataError> {
     let mut positions: Option<[usize; 5]> = None;
     let mut constraints = Vec::new();
-    for (index, line) in text.lines().enumerate() {
-        let line_number = index + 1;
-        let trimmed = line.trim();
-        if trimmed.is_empty() || trimmed.starts_with('#') {
-            continue;
-        }
-        let cells = split_cells(trimmed, Some(','), path, line_number)?;
+    for record in csv_records(text, path) {
+        let (line_number, cells) = record?;
         let Some(at) = positions else {
             let names: Vec<String> = cells.iter().map(|c| c.trim().to_lowercase()).collect();
             let mut found = [0; 5];
@@ -168,17 +180,17 @@ pub fn parse_constraints(text: &str, path: &Path) -> Result<Vec<OutsideConstrain
                 }),
             }
         };
-        let value = match cell(4).to_lowercase().as_str() {
+        let value = match cell(KIND).to_lowercase().as_str() {
             "measurement" => ConstraintValue::Measurement {
-                sigma_m_cm2_g: number(2)?,
-                error_cm2_g: number(3)?,
+                sigma_m_cm2_g: number(SIGMA_M)?,
+                error_cm2_g: number(ERROR)?,
             },
             "upper95" => ConstraintValue::Upper95 {
-                sigma_m_cm2_g: number(2)?,
+                sigma_m_cm2_g: number(SIGMA_M)?,
             },
             other => {
                 return Err(DataError::Malformed {
-                    location: location(path, line_number, Some(at[4] + 1)),
+                    location: location(path, line_number, Some(at[KIND] + 1)),
                     message: format!(
                         "column 'kind': expected 'measurement' or 'upper95', found '{other}'"
                     ),
@@ -186,8 +198,8 @@ pub fn parse_constraints(text: &str, path: &Path) -> Result<Vec<OutsideConstrain
             }
         };
         constraints.push(OutsideConstraint {
-            label: cell(0).to_string(),
-            v_rel_kms: number(1)?,
+            label: cell(LABEL).to_string(),
+            v_rel_kms: number(V_REL)?,
             value,
         });
     }

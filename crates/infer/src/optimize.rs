@@ -96,6 +96,38 @@ pub fn nelder_mead<D: LogDensity>(
     })
 }
 
+/// Nelder–Mead from each of `starts` points drawn by `next_start` (None: no valid point this
+/// time), the best polished by a second run; `no_start` says why when no start was valid.
+pub fn multistart_nelder_mead<D: LogDensity>(
+    density: &D,
+    bounds: &[(f64, f64)],
+    starts: usize,
+    mut next_start: impl FnMut() -> Option<Vec<f64>>,
+    max_iterations: u64,
+    no_start: impl FnOnce() -> String,
+) -> Result<MapEstimate, InferError> {
+    let mut best: Option<MapEstimate> = None;
+    for _ in 0..starts.max(1) {
+        let Some(start) = next_start() else {
+            continue;
+        };
+        let estimate = nelder_mead(density, bounds, &start, max_iterations)?;
+        if best
+            .as_ref()
+            .is_none_or(|b| estimate.log_posterior > b.log_posterior)
+        {
+            best = Some(estimate);
+        }
+    }
+    let best = best.ok_or_else(|| InferError::NoValidStart(no_start()))?;
+    let polished = nelder_mead(density, bounds, &best.theta, max_iterations)?;
+    Ok(if polished.log_posterior > best.log_posterior {
+        polished
+    } else {
+        best
+    })
+}
+
 /// Maximum a posteriori: Nelder–Mead from `starts` random valid points, the best polished by a
 /// second run.
 pub fn maximum_a_posteriori(
@@ -109,29 +141,17 @@ pub fn maximum_a_posteriori(
         .iter()
         .map(|p| (p.lower, p.upper))
         .collect();
-    let mut best: Option<MapEstimate> = None;
-    for _ in 0..starts.max(1) {
-        let Some(start) = valid_random_start(model, &mut rng, 2000) else {
-            continue;
-        };
-        let estimate = nelder_mead(model, &bounds, &start, 2000)?;
-        if best
-            .as_ref()
-            .is_none_or(|b| estimate.log_posterior > b.log_posterior)
-        {
-            best = Some(estimate);
-        }
-    }
-    let best = best.ok_or_else(|| {
-        InferError::NoValidStart(format!(
-            "no point with a positive posterior found in 2000 random draws (model {})",
-            model.model.name()
-        ))
-    })?;
-    let polished = nelder_mead(model, &bounds, &best.theta, 2000)?;
-    Ok(if polished.log_posterior > best.log_posterior {
-        polished
-    } else {
-        best
-    })
+    multistart_nelder_mead(
+        model,
+        &bounds,
+        starts,
+        || valid_random_start(model, &mut rng, 2000),
+        2000,
+        || {
+            format!(
+                "no point with a positive posterior found in 2000 random draws (model {})",
+                model.model.name()
+            )
+        },
+    )
 }

@@ -279,51 +279,36 @@ impl CrossSection {
     ) -> Result<f64, PhysicsError> {
         if let Self::Constant { sigma_m_cm2_g } = *self {
             require_positive("sigma/m [cm2/g]", sigma_m_cm2_g)?;
+        }
+        self.sigma0_roots_for_rate_density_kms(rho1_msun_kpc3, age_gyr, 1)
+            .first()
+            .copied()
+            .ok_or_else(|| PhysicsError::NoSolution {
+                reason: format!(
+                    "no core dispersion between 0.01 and 1e5 km/s makes each particle scatter once at {rho1_msun_kpc3:.3e} Msun/kpc3"
+                ),
+            })
+    }
+
+    /// The lowest `most` dispersions σ0 (km/s, ascending, between 0.01 and 10⁵ km/s) at which
+    /// the rate condition ρ1·⟨σv⟩/m(σ0)·t = 1 puts ρ1 = `rho1_msun_kpc3`: at most one for a
+    /// constant σ/m; a velocity-dependent σ(v)/m whose ⟨σv⟩/m rises and then falls with σ0 can
+    /// have two or more. Found by a scan of 120 steps in ln σ0 and Brent's method in each bracket.
+    #[must_use]
+    pub fn sigma0_roots_for_rate_density_kms(
+        &self,
+        rho1_msun_kpc3: f64,
+        age_gyr: f64,
+        most: usize,
+    ) -> Vec<f64> {
+        if let Self::Constant { sigma_m_cm2_g } = *self {
+            if most == 0 || sigma_m_cm2_g <= 0.0 {
+                return Vec::new();
+            }
             let per_sigma0 = cm2_per_g_to_kpc2_per_msun(sigma_m_cm2_g)
                 * mean_relative_speed_kms(1.0)
                 * gyr_to_kpc_per_kms(age_gyr);
-            return Ok(1.0 / (per_sigma0 * rho1_msun_kpc3));
-        }
-        let excess = |ln_sigma0: f64| -> f64 {
-            (rho1_msun_kpc3 * self.sigma_v_over_m(ln_sigma0.exp()) * gyr_to_kpc_per_kms(age_gyr))
-                .ln()
-        };
-        let (low, high) = ((0.01f64).ln(), (1e5f64).ln());
-        let steps = 120;
-        let mut previous = (low, excess(low));
-        for k in 1..=steps {
-            let x = low + (high - low) * f64::from(k) / f64::from(steps);
-            let here = (x, excess(x));
-            if previous.1.is_finite() && here.1.is_finite() && (previous.1 < 0.0) != (here.1 < 0.0)
-            {
-                return brent(
-                    excess,
-                    previous.0,
-                    here.0,
-                    1e-13,
-                    "dispersion from the rate condition",
-                )
-                .map(f64::exp);
-            }
-            previous = here;
-        }
-        Err(PhysicsError::NoSolution {
-            reason: format!(
-                "no core dispersion between 0.01 and 1e5 km/s makes each particle scatter once at {rho1_msun_kpc3:.3e} Msun/kpc3"
-            ),
-        })
-    }
-
-    /// Every dispersion σ0 (km/s, ascending, between 0.01 and 10⁵ km/s) at which the rate
-    /// condition puts ρ1 = `rho1_msun_kpc3`: one for a constant σ/m; a velocity-dependent σ(v)/m
-    /// whose ⟨σv⟩/m rises and then falls with σ0 can have two or more.
-    #[must_use]
-    pub fn sigma0_roots_for_rate_density_kms(&self, rho1_msun_kpc3: f64, age_gyr: f64) -> Vec<f64> {
-        if let Self::Constant { .. } = *self {
-            return self
-                .sigma0_for_rate_density_kms(rho1_msun_kpc3, age_gyr)
-                .into_iter()
-                .collect();
+            return vec![1.0 / (per_sigma0 * rho1_msun_kpc3)];
         }
         let excess = |ln_sigma0: f64| -> f64 {
             (rho1_msun_kpc3 * self.sigma_v_over_m(ln_sigma0.exp()) * gyr_to_kpc_per_kms(age_gyr))
@@ -334,6 +319,9 @@ impl CrossSection {
         let mut roots = Vec::new();
         let mut previous = (low, excess(low));
         for k in 1..=steps {
+            if roots.len() >= most {
+                break;
+            }
             let x = low + (high - low) * f64::from(k) / f64::from(steps);
             let here = (x, excess(x));
             if previous.1.is_finite()

@@ -7,6 +7,8 @@ use std::path::Path;
 use plotters::coord::Shift;
 use plotters::prelude::*;
 
+use caldera_infer::summary::Interval;
+
 use crate::ReportError;
 use crate::theme;
 
@@ -22,6 +24,21 @@ pub trait Figure {
 
 fn draw_error<E: std::error::Error + Send + Sync>(e: DrawingAreaErrorKind<E>) -> ReportError {
     ReportError::Draw(e.to_string())
+}
+
+/// Draws the legend of the labelled series in one style for every figure.
+fn draw_legend<'a, DB: DrawingBackend + 'a, CT: CoordTranslate>(
+    chart: &mut ChartContext<'a, DB, CT>,
+    position: SeriesLabelPosition,
+) -> Result<(), ReportError> {
+    chart
+        .configure_series_labels()
+        .position(position)
+        .label_font(font(theme::TICK_SIZE))
+        .background_style(WHITE.mix(0.85))
+        .border_style(BLACK)
+        .draw()
+        .map_err(draw_error)
 }
 
 /// Writes `figure` to `path` (`.svg` or `.png`), atomically.
@@ -192,14 +209,7 @@ impl Figure for RotationCurveFigure {
                 )))
                 .map_err(draw_error)?;
         }
-        chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::LowerRight)
-            .label_font(font(theme::TICK_SIZE))
-            .background_style(WHITE.mix(0.85))
-            .border_style(BLACK)
-            .draw()
-            .map_err(draw_error)?;
+        draw_legend(&mut chart, SeriesLabelPosition::LowerRight)?;
 
         let residuals: Vec<(f64, f64)> = c
             .radius_kpc
@@ -424,6 +434,19 @@ pub struct PopulationPoint {
     pub upper95_cm2_g: Option<f64>,
 }
 
+impl PopulationPoint {
+    /// A galaxy's point from its posterior summaries of ⟨v_rel⟩ (km/s) and σ/m (cm²/g).
+    #[must_use]
+    pub fn new(name: &str, v_rel_kms: &Interval, sigma_m_cm2_g: &Interval) -> Self {
+        Self {
+            name: name.to_string(),
+            v_rel_kms: (v_rel_kms.median, v_rel_kms.p16, v_rel_kms.p84),
+            sigma_m_cm2_g: (sigma_m_cm2_g.median, sigma_m_cm2_g.p16, sigma_m_cm2_g.p84),
+            upper95_cm2_g: sigma_m_cm2_g.upper95,
+        }
+    }
+}
+
 /// σ/m against ⟨v_rel⟩ on log axes, with error bars, upper-limit arrows and model curves.
 #[derive(Debug, Clone, PartialEq)]
 pub struct PopulationFigure {
@@ -583,14 +606,7 @@ impl Figure for PopulationFigure {
             }
         }
         if !self.curves.is_empty() {
-            chart
-                .configure_series_labels()
-                .position(SeriesLabelPosition::LowerLeft)
-                .label_font(font(theme::TICK_SIZE))
-                .background_style(WHITE.mix(0.85))
-                .border_style(BLACK)
-                .draw()
-                .map_err(draw_error)?;
+            draw_legend(&mut chart, SeriesLabelPosition::LowerLeft)?;
         }
         Ok(())
     }

@@ -21,7 +21,7 @@ use serde::{Deserialize, Serialize};
 use caldera_data::OutsideConstraint;
 
 use crate::InferError;
-use crate::optimize::{MapEstimate, nelder_mead};
+use crate::optimize::{MapEstimate, multistart_nelder_mead};
 use crate::priors::CrossSectionPrior;
 use crate::sampler::{EnsembleState, MoveMix, Observer, RunConfig, run};
 use crate::summary::{Interval, interval, piles_at_lower_bound, quantile};
@@ -62,6 +62,18 @@ impl Default for PopulationSettings {
     }
 }
 
+/// The population likelihood divides by a flat prior density in log10 σ/m: refuses chains
+/// sampled uniformly in σ/m itself.
+fn require_logarithmic_prior(galaxy: &str, prior: &CrossSectionPrior) -> Result<(), InferError> {
+    if prior.logarithmic {
+        Ok(())
+    } else {
+        Err(InferError::Config(format!(
+            "galaxy '{galaxy}': its sigma/m was sampled uniformly in sigma/m; the population fit reweights chains sampled uniformly in log10 sigma/m (refit with a logarithmic prior)"
+        )))
+    }
+}
+
 impl GalaxyPosterior {
     /// From a chain's columns `log10_sigma0_kms` and `log10_sigma_m_cm2_g` (as Caldera writes
     /// SIDM chains), with the fit's σ/m prior.
@@ -72,11 +84,7 @@ impl GalaxyPosterior {
         prior: &CrossSectionPrior,
         max_samples: usize,
     ) -> Result<Self, InferError> {
-        if !prior.logarithmic {
-            return Err(InferError::Config(format!(
-                "galaxy '{galaxy}': its sigma/m was sampled uniformly in sigma/m; the population fit reweights chains sampled uniformly in log10 sigma/m (refit with a logarithmic prior)"
-            )));
-        }
+        require_logarithmic_prior(galaxy, prior)?;
         let sigma0: Vec<f64> = log10_sigma0_kms.iter().map(|x| 10f64.powf(*x)).collect();
         Self::from_samples(
             galaxy,
@@ -86,18 +94,14 @@ impl GalaxyPosterior {
             max_samples,
         )
     }
-}
 
-impl GalaxyPosterior {
     /// From a finished SIDM fit held in memory.
     pub fn from_fit(
         fit: &crate::FitResult,
         prior: &CrossSectionPrior,
         max_samples: usize,
     ) -> Result<Self, InferError> {
-        if !prior.logarithmic {
-            return Self::from_chain(&fit.summary.galaxy, &[], &[], prior, max_samples);
-        }
+        require_logarithmic_prior(&fit.summary.galaxy, prior)?;
         let index = |name: &str| {
             fit.parameters
                 .iter()
@@ -302,35 +306,25 @@ fn maximum_likelihood(
         .iter()
         .map(|p| (p.lower, p.upper))
         .collect();
-    let mut best: Option<MapEstimate> = None;
-    for _ in 0..starts.max(1) {
-        let start: Vec<f64> = bounds
-            .iter()
-            .map(|(lo, hi)| lo + (hi - lo) * rng.random::<f64>())
-            .collect();
-        if !density.log_likelihood(&start).is_finite() {
-            continue;
-        }
-        let estimate = nelder_mead(density, &bounds, &start, 1500)?;
-        if best
-            .as_ref()
-            .is_none_or(|b| estimate.log_posterior > b.log_posterior)
-        {
-            best = Some(estimate);
-        }
-    }
-    let best = best.ok_or_else(|| {
-        InferError::NoValidStart(format!(
-            "population model {}: no start with a finite likelihood",
-            density.model.name()
-        ))
-    })?;
-    let polished = nelder_mead(density, &bounds, &best.theta, 1500)?;
-    Ok(if polished.log_posterior > best.log_posterior {
-        polished
-    } else {
-        best
-    })
+    multistart_nelder_mead(
+        density,
+        &bounds,
+        starts,
+        || {
+            let start: Vec<f64> = bounds
+                .iter()
+                .map(|(lo, hi)| lo + (hi - lo) * rng.random::<f64>())
+                .collect();
+            density.log_likelihood(&start).is_finite().then_some(start)
+        },
+        1500,
+        || {
+            format!(
+                "population model {}: no start with a finite likelihood",
+                density.model.name()
+            )
+        },
+    )
 }
 
 /// Fits one population model under one treatment: maximum likelihood, then the ensemble

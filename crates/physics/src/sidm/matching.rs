@@ -102,17 +102,10 @@ fn candidate(
     let x = invert_nfw_mass_ratio(mass_ratio, guess).ok()?;
     let r1 = x * nfw.r_s_kpc;
     let rho1 = nfw.density_msun_kpc3(r1);
-    let sigma0 = if root == 0 {
-        setup
-            .cross_section
-            .sigma0_for_rate_density_kms(rho1, setup.age_gyr)
-            .ok()?
-    } else {
-        *setup
-            .cross_section
-            .sigma0_roots_for_rate_density_kms(rho1, setup.age_gyr)
-            .get(root)?
-    };
+    let sigma0 = *setup
+        .cross_section
+        .sigma0_roots_for_rate_density_kms(rho1, setup.age_gyr, root + 1)
+        .get(root)?;
     let rho0 = rho1 * psi.exp();
     let core_scale = sigma0 / (4.0 * std::f64::consts::PI * G_KPC_KMS2_PER_MSUN * rho0).sqrt();
     Some(Candidate {
@@ -175,7 +168,13 @@ fn baryon_free_seeds_on_root(setup: &SidmSetup, nfw: &Nfw, root: usize) -> Vec<(
             // rate condition loses its roots at a fold): a root may lie between the last node
             // and the edge.
             if let Some(&(t_before, d_before)) = recent.last() {
-                seeds.extend(seed_near_edge(&on_profile, t_before, d_before, t));
+                seeds.extend(seed_near_edge(
+                    &on_profile,
+                    &root_between,
+                    t_before,
+                    d_before,
+                    t,
+                ));
             }
             recent.clear();
             guess = None;
@@ -225,6 +224,7 @@ fn baryon_free_seeds_on_root(setup: &SidmSetup, nfw: &Nfw, root: usize) -> Vec<(
 /// discrepancy between `t_valid` and the edge, if it changes sign there.
 fn seed_near_edge(
     on_profile: &dyn Fn(f64, Option<f64>) -> Option<Candidate>,
+    root_between: &dyn Fn(f64, f64) -> Option<(f64, f64)>,
     t_valid: f64,
     d_valid: f64,
     t_invalid: f64,
@@ -242,15 +242,7 @@ fn seed_near_edge(
     if (edge.discrepancy < 0.0) == (d_valid < 0.0) {
         return None;
     }
-    let root = brent(
-        |t| on_profile(t, None).map_or(f64::NAN, |c| c.discrepancy),
-        t_valid,
-        inside,
-        1e-13,
-        "matching scan near the edge of the rate condition's roots",
-    )
-    .ok()?;
-    on_profile(root, None).map(|c| (c.rho0_msun_kpc3, c.sigma0_kms))
+    root_between(t_valid, inside)
 }
 
 /// Locates the extremum of the discrepancy in [t_low, t_high] by golden-section search; when it
