@@ -18,7 +18,7 @@ use caldera_report::figures::{RotationCurveFigure, save_figure};
 use caldera_report::tables::{latex_table, results_table};
 use egui::Color32;
 
-use crate::live::{LiveCurve, live_curve};
+use crate::live::{LiveCurve, live_curve, settings_from_fit};
 use crate::population::{ParticleModel, PopulationInputs, PopulationJob};
 use crate::theme;
 use crate::worker::{FitJob, FitMessage};
@@ -119,6 +119,8 @@ pub(crate) struct Runtime {
     pub(crate) live_error: Option<String>,
     pub(crate) live_key: Option<(usize, GalaxySettings)>,
     pub(crate) last_valid: Option<LiveCurve>,
+    /// The SIDM core (ρ0, σ0) the next live curve should follow (a best fit's branch).
+    pub(crate) core_hint: Option<(f64, f64)>,
     pub(crate) fit: Option<FitJob>,
     pub(crate) fits: BTreeMap<(String, HaloModel), FitResult>,
     pub(crate) messages: Vec<(Color32, String)>,
@@ -164,6 +166,7 @@ impl CalderaApp {
                 live_error: None,
                 live_key: None,
                 last_valid: None,
+                core_hint: None,
                 fit: None,
                 fits: BTreeMap::new(),
                 messages: Vec::new(),
@@ -362,6 +365,14 @@ impl CalderaApp {
         self.refresh_live();
     }
 
+    /// Whether the selected galaxy's table has a bulge column.
+    pub(crate) fn selected_has_bulge(&self) -> bool {
+        self.runtime
+            .selected
+            .and_then(|i| self.runtime.galaxies[i].table.as_ref().ok())
+            .is_some_and(|t| t.v_bulge_kms.is_some())
+    }
+
     pub(crate) fn current_settings(&self) -> Option<GalaxySettings> {
         let i = self.runtime.selected?;
         self.session
@@ -382,8 +393,17 @@ impl CalderaApp {
             return;
         };
         // Follow the solution on screen while the same galaxy's controls move.
-        let previous = match (&self.runtime.live_key, &self.runtime.live) {
-            (Some((k, _)), Some(curve)) if *k == i => curve.rho0_msun_kpc3.zip(curve.sigma0_kms),
+        // A best fit just loaded names its own core (the fitted branch); otherwise follow the
+        // solution on screen while the same galaxy's controls move.
+        let previous = match (
+            self.runtime.core_hint.take(),
+            &self.runtime.live_key,
+            &self.runtime.live,
+        ) {
+            (Some(core), _, _) => Some(core),
+            (None, Some((k, _)), Some(curve)) if *k == i => {
+                curve.rho0_msun_kpc3.zip(curve.sigma0_kms)
+            }
             _ => None,
         };
         match live_curve(table, &settings, &self.session.fit.cosmology, previous) {
@@ -608,49 +628,28 @@ impl CalderaApp {
     }
 
     fn use_best_fit(&mut self) {
-        let (Some(i), Some(mut settings)) = (self.runtime.selected, self.current_settings()) else {
+        let (Some(i), Some(settings)) = (self.runtime.selected, self.current_settings()) else {
             return;
         };
         let name = self.runtime.galaxies[i].name();
         let Some(summary) = self.session.result(&name, settings.model) else {
             return;
         };
-        let best = &summary.best_fit;
-        let pick = |k: &str| best.get(k).copied();
-        if let Some(v) = pick("sigma_m_cm2_g") {
-            settings.sigma_m_cm2_g = v;
+        let Ok(table) = &self.runtime.galaxies[i].table else {
+            return;
+        };
+        match settings_from_fit(table, &settings, summary, &self.session.fit.cosmology) {
+            Ok((settings, core)) => {
+                self.session.galaxies.insert(name, settings);
+                self.runtime.dirty = true;
+                self.runtime.core_hint = core;
+                self.refresh_live();
+            }
+            Err(e) => self.say(
+                theme::ERROR,
+                format!("error: cannot load the best fit of {name}: {e}"),
+            ),
         }
-        if let (Some(v), Some(c)) = (summary.v200_kms, summary.c200) {
-            settings.v200_kms = v.median;
-            settings.c200 = c.median;
-        }
-        if let Some(v) = pick("v200_kms") {
-            settings.v200_kms = v;
-        }
-        if let Some(v) = pick("c200") {
-            settings.c200 = v;
-        }
-        if let Some(v) = pick("rho0_msun_kpc3") {
-            settings.rho0_msun_kpc3 = v;
-        }
-        if let Some(v) = pick("r0_kpc").or(pick("rc_kpc")) {
-            settings.core_radius_kpc = v;
-        }
-        if let Some(v) = pick("upsilon_disk") {
-            settings.upsilon_disk = v;
-        }
-        if let Some(v) = pick("upsilon_bulge") {
-            settings.upsilon_bulge = v;
-        }
-        if let Some(v) = pick("distance_mpc") {
-            settings.distance_mpc = Some(v);
-        }
-        if let Some(v) = pick("inclination_deg") {
-            settings.inclination_deg = Some(v);
-        }
-        self.session.galaxies.insert(name, settings);
-        self.runtime.dirty = true;
-        self.refresh_live();
     }
 
     fn export_dir(&mut self) -> Option<PathBuf> {

@@ -7,10 +7,11 @@
 //! model the fits use.
 
 use caldera_data::GalaxyTable;
-use caldera_data::session::{GalaxySettings, HaloModel};
+use caldera_data::session::GalaxySettings;
+use caldera_infer::FitSummary;
 use caldera_infer::model::{Components, GalaxyModel};
 use caldera_infer::priors::{CrossSectionPrior, HaloBounds, Priors};
-use caldera_physics::{Branch, Cosmology, CrossSection, Nfw, SidmSetup, sidm};
+use caldera_physics::{Cosmology, ParamId, ParamValues};
 
 /// The live curve and its fit statistics.
 #[derive(Debug, Clone, PartialEq)]
@@ -33,6 +34,7 @@ fn live_priors() -> Priors {
             log10_v200: (-3.0, 5.0),
             log10_c200: (-3.0, 5.0),
             log10_core_radius: (-5.0, 5.0),
+            log10_einasto_alpha: (-5.0, 5.0),
         },
         cross_section: CrossSectionPrior {
             logarithmic: true,
@@ -44,9 +46,13 @@ fn live_priors() -> Priors {
 }
 
 /// Builds the curve for `settings` on `table`. The error names why no curve exists (for
-/// example, no isothermal core matches the halo). `previous`, the (ρ0, σ0) of the curve drawn a
-/// moment ago, lets a drag follow the solution by Newton's method instead of searching afresh
-/// (a full search runs when that fails or when there is no previous solution).
+/// example, no isothermal core matches the halo). `previous`, the SIDM core (ρ0, σ0) of the curve
+/// drawn a moment ago, lets a drag follow the solution by Newton's method instead of searching
+/// afresh (a full search runs when that fails or when there is no previous solution).
+///
+/// The halo family says which settings it reads ([`caldera_physics::HaloFamily::controls`]) and
+/// turns them into its parameters (for SIDM, the halo-first solve with the baryons at the set
+/// Υ's and distance); the curve is then drawn by the same [`GalaxyModel`] the fits use.
 pub fn live_curve(
     table: &GalaxyTable,
     settings: &GalaxySettings,
@@ -61,72 +67,97 @@ pub fn live_curve(
         Some(settings.age_gyr),
     )
     .map_err(|e| e.to_string())?;
-    let mut theta = model.centre();
-    for (k, p) in model.parameters().iter().enumerate() {
-        match p.name.as_str() {
-            "log10_upsilon_disk" => theta[k] = settings.upsilon_disk.max(1e-6).log10(),
-            "log10_upsilon_bulge" => theta[k] = settings.upsilon_bulge.max(1e-6).log10(),
-            "distance_mpc" => {
-                if let Some(d) = settings.distance_mpc {
-                    theta[k] = d;
-                }
-            }
-            "inclination_deg" => {
-                if let Some(i) = settings.inclination_deg {
-                    theta[k] = i;
-                }
-            }
-            _ => {}
-        }
-    }
-    let (mut v_rel_kms, mut rho0_msun_kpc3, mut sigma0_kms) = (None, None, None);
-    match settings.model {
-        HaloModel::Sidm => {
-            let baryons = model.baryons_at(&theta).map_err(|e| e.to_string())?;
-            let setup = SidmSetup {
-                cross_section: CrossSection::constant(settings.sigma_m_cm2_g)
-                    .map_err(|e| e.to_string())?,
-                age_gyr: settings.age_gyr,
-                baryons: &baryons,
-                cosmology: *cosmology,
-            };
-            let nfw = Nfw::from_v200_c200(settings.v200_kms, settings.c200, cosmology)
-                .map_err(|e| e.to_string())?;
-            let followed =
-                previous.and_then(|guess| sidm::halo_first_near(&setup, &nfw, guess).ok());
-            let halo = match followed {
-                Some(halo) => halo,
-                None => sidm::halo_first(&setup, &nfw, Branch::LowestDensity)
-                    .map_err(|e| e.to_string())?,
-            };
-            theta[0] = halo.rho0_msun_kpc3().log10();
-            theta[1] = halo.sigma0_kms().log10();
-            theta[2] = settings.sigma_m_cm2_g.log10();
-            v_rel_kms = Some(halo.summary().v_rel_kms);
-            rho0_msun_kpc3 = Some(halo.rho0_msun_kpc3());
-            sigma0_kms = Some(halo.sigma0_kms());
-        }
-        HaloModel::Nfw => {
-            theta[0] = settings.v200_kms.max(1e-6).log10();
-            theta[1] = settings.c200.max(1e-6).log10();
-        }
-        HaloModel::Burkert | HaloModel::PseudoIsothermal => {
-            theta[0] = settings.rho0_msun_kpc3.max(1e-6).log10();
-            theta[1] = settings.core_radius_kpc.max(1e-6).log10();
-        }
-    }
+    let family = settings.model.family();
+    let nuisances = [
+        ParamId::UpsilonDisk,
+        ParamId::UpsilonBulge,
+        ParamId::Distance,
+        ParamId::Inclination,
+    ];
+    let controls = ParamValues::from_pairs(
+        family
+            .controls()
+            .iter()
+            .chain(&nuisances)
+            .filter_map(|&id| settings.value(id).map(|v| (id, v))),
+    );
+    let near = previous.map(|(rho0, sigma0)| {
+        ParamValues::from_pairs([(ParamId::Rho0, rho0), (ParamId::Sigma0, sigma0)])
+    });
+    let at_controls = model.theta_from_values(&controls);
+    let baryons = model.baryons_at(&at_controls).map_err(|e| e.to_string())?;
+    let parameters = family
+        .parameters_from_controls(&controls, &model.halo_context(&baryons), near.as_ref())
+        .map_err(|e| e.to_string())?;
+    let theta = model.theta_from_values(&parameters);
     let components = model.components(&theta).map_err(|e| e.to_string())?;
     let chi2 = components.chi2;
     let dof = model
         .n_points()
         .saturating_sub(model.parameters().len())
         .max(1);
+    let halo = components.halo;
     Ok(LiveCurve {
-        components,
         chi2,
         chi2_nu: chi2 / dof as f64,
-        v_rel_kms,
-        rho0_msun_kpc3,
-        sigma0_kms,
+        v_rel_kms: halo.v_rel_kms,
+        rho0_msun_kpc3: halo.rho0_msun_kpc3,
+        sigma0_kms: halo.sigma0_kms,
+        components,
     })
+}
+
+/// The settings that reproduce a fit's best sample on the controls, and for SIDM the core
+/// (ρ0, σ0) of that sample, so the live curve follows the fitted branch of the halo-first solve
+/// rather than the lowest-density one.
+///
+/// The family turns its fitted parameters into its controls (SIDM: the best core's matched NFW
+/// halo, V200 and c200); Υ's, distance and inclination take the best sample's values, or the
+/// table's when the fit held them fixed; the age is the fit's.
+pub fn settings_from_fit(
+    table: &GalaxyTable,
+    settings: &GalaxySettings,
+    summary: &FitSummary,
+    cosmology: &Cosmology,
+) -> Result<(GalaxySettings, Option<(f64, f64)>), String> {
+    let model = GalaxyModel::new(
+        table,
+        summary.model,
+        live_priors(),
+        *cosmology,
+        Some(summary.age_gyr),
+    )
+    .map_err(|e| e.to_string())?;
+    let family = summary.model.family();
+    let best = summary.best_values();
+    let baryons = model
+        .baryons_at(&model.theta_from_values(&best))
+        .map_err(|e| e.to_string())?;
+    let controls = family
+        .controls_from_parameters(&best, &model.halo_context(&baryons))
+        .map_err(|e| e.to_string())?;
+    let mut out = settings.clone();
+    out.model = summary.model;
+    out.age_gyr = summary.age_gyr;
+    for &id in family.controls() {
+        if let Some(v) = controls.get(id) {
+            out.set_value(id, v);
+        }
+    }
+    for id in [ParamId::UpsilonDisk, ParamId::UpsilonBulge] {
+        if let Some(v) = best.get(id) {
+            out.set_value(id, v);
+        }
+    }
+    out.distance_mpc = best.get(ParamId::Distance).or(table.meta.distance_mpc);
+    out.inclination_deg = best
+        .get(ParamId::Inclination)
+        .or(table.meta.inclination_deg);
+    let core = best.get(ParamId::Rho0).zip(best.get(ParamId::Sigma0));
+    let core = family
+        .parameters()
+        .contains(&ParamId::Sigma0)
+        .then_some(core)
+        .flatten();
+    Ok((out, core))
 }

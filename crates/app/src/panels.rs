@@ -1,6 +1,7 @@
 //! The panels: each `*_ui` function only draws and pushes [`Command`]s.
 
 use caldera_data::session::HaloModel;
+use caldera_physics::ParamId;
 use egui::{Color32, RichText};
 use egui_plot::{
     Bar, BarChart, Legend, Line, LineStyle, MarkerShape, Plot, PlotPoints, Points, VLine,
@@ -172,49 +173,20 @@ impl CalderaApp {
                     ui.selectable_value(&mut s.model, m, model_label(m));
                 }
             });
-        match s.model {
-            HaloModel::Sidm | HaloModel::Nfw => {
-                if s.model == HaloModel::Sidm {
-                    ui.add(
-                        egui::Slider::new(&mut s.sigma_m_cm2_g, 0.01..=100.0)
-                            .logarithmic(true)
-                            .text("σ/m [cm²/g]"),
-                    );
-                }
-                ui.add(
-                    egui::Slider::new(&mut s.v200_kms, 10.0..=400.0)
-                        .logarithmic(true)
-                        .text("V200 [km/s]"),
-                );
-                ui.add(
-                    egui::Slider::new(&mut s.c200, 1.0..=50.0)
-                        .logarithmic(true)
-                        .text("c200"),
-                );
-            }
-            HaloModel::Burkert | HaloModel::PseudoIsothermal => {
-                ui.add(
-                    egui::Slider::new(&mut s.rho0_msun_kpc3, 1e5..=1e11)
-                        .logarithmic(true)
-                        .text("ρ0 [Msun/kpc³]"),
-                );
-                ui.add(
-                    egui::Slider::new(&mut s.core_radius_kpc, 0.05..=50.0)
-                        .logarithmic(true)
-                        .text("core radius [kpc]"),
-                );
+        for &id in s.model.family().controls() {
+            if let Some(mut value) = s.value(id) {
+                parameter_slider(ui, id, &mut value);
+                s.set_value(id, value);
             }
         }
-        ui.add(
-            egui::Slider::new(&mut s.upsilon_disk, 0.05..=3.0)
-                .logarithmic(true)
-                .text("Mass-to-light, disk"),
-        );
-        ui.add(
-            egui::Slider::new(&mut s.upsilon_bulge, 0.05..=3.0)
-                .logarithmic(true)
-                .text("Mass-to-light, bulge"),
-        );
+        let mut upsilon_disk = s.upsilon_disk;
+        parameter_slider(ui, ParamId::UpsilonDisk, &mut upsilon_disk);
+        s.upsilon_disk = upsilon_disk;
+        if self.selected_has_bulge() {
+            let mut upsilon_bulge = s.upsilon_bulge;
+            parameter_slider(ui, ParamId::UpsilonBulge, &mut upsilon_bulge);
+            s.upsilon_bulge = upsilon_bulge;
+        }
         if let Some(d) = s.distance_mpc.as_mut() {
             ui.add(
                 egui::Slider::new(d, 0.5..=100.0)
@@ -364,7 +336,7 @@ impl CalderaApp {
                 }
                 ui.end_row();
                 for r in rows {
-                    ui.label(&r.model);
+                    ui.label(r.model.name());
                     ui.label(format!("{:.2}", r.chi2_nu));
                     ui.label(format!("{:.1}", r.aic));
                     ui.label(format!("{:.1}", r.bic));
@@ -382,7 +354,7 @@ impl CalderaApp {
                     .iter()
                     .map(|&(s, w)| result.chain.position(s, w, p))
                     .collect();
-                histogram_ui(ui, &parameter.name, &values);
+                histogram_ui(ui, &parameter.label(), &values);
             }
         }
     }
@@ -524,7 +496,7 @@ impl CalderaApp {
                     .session
                     .results
                     .iter()
-                    .filter(|r| r.model == HaloModel::Sidm.name())
+                    .filter(|r| r.model == HaloModel::Sidm)
                 {
                     let (Some(v), Some(s)) = (r.v_rel_kms, r.sigma_m_cm2_g) else {
                         continue;
@@ -688,12 +660,18 @@ impl CalderaApp {
 }
 
 fn model_label(model: HaloModel) -> &'static str {
-    match model {
-        HaloModel::Sidm => "SIDM (isothermal Jeans)",
-        HaloModel::Nfw => "NFW",
-        HaloModel::Burkert => "Burkert",
-        HaloModel::PseudoIsothermal => "Pseudo-isothermal",
-    }
+    model.label()
+}
+
+/// A logarithmic or linear slider over the parameter's hand-exploration range, labelled with its
+/// symbol and unit.
+fn parameter_slider(ui: &mut egui::Ui, id: ParamId, value: &mut f64) {
+    let (low, high, logarithmic) = id.control_range();
+    ui.add(
+        egui::Slider::new(value, low..=high)
+            .logarithmic(logarithmic)
+            .text(id.label()),
+    );
 }
 
 fn histogram_ui(ui: &mut egui::Ui, name: &str, values: &[f64]) {

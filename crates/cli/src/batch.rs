@@ -14,6 +14,7 @@ use std::time::Instant;
 use anyhow::{Context, bail};
 use caldera_data::session::{HaloModel, save_session};
 use caldera_data::{GalaxyTable, ReadOptions, load_catalogue, write_atomic};
+use caldera_infer::layout::ParamSpec;
 use caldera_infer::model::GalaxyModel;
 use caldera_infer::sampler::{Control, Progress};
 use caldera_infer::session::Session;
@@ -305,7 +306,7 @@ fn write_job(
         let kept: Vec<(usize, usize)> = result.chain.kept(result.burn_in, result.thin).collect();
         let corner = CornerFigure {
             title: format!("{} — {} posterior", job.table.meta.name, name),
-            names: result.parameters.iter().map(|p| p.name.clone()).collect(),
+            names: result.parameters.iter().map(ParamSpec::label).collect(),
             columns: (0..result.parameters.len())
                 .map(|p| {
                     kept.iter()
@@ -373,7 +374,7 @@ fn rebuild_outputs(out: &Path, mut session: Session) -> anyhow::Result<usize> {
     write_atomic(&out.join("results.tex"), latex_table(&summaries).as_bytes())?;
     let points: Vec<PopulationPoint> = summaries
         .iter()
-        .filter(|s| s.model == HaloModel::Sidm.name())
+        .filter(|s| s.model == HaloModel::Sidm)
         .filter_map(|s| {
             Some(PopulationPoint::new(
                 &s.galaxy,

@@ -8,6 +8,7 @@
 
 use std::path::Path;
 
+use caldera_physics::ParamId;
 use serde::{Deserialize, Serialize};
 
 use crate::catalogue::TABLE_EXTENSIONS;
@@ -20,41 +21,8 @@ pub const SESSION_VERSION: u32 = 1;
 /// Conventional extension of session files.
 pub const SESSION_EXTENSION: &str = "ron";
 
-/// Halo models a user can choose.
-#[derive(
-    Debug, Clone, Copy, Default, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize, Deserialize,
-)]
-pub enum HaloModel {
-    #[default]
-    Sidm,
-    Nfw,
-    Burkert,
-    PseudoIsothermal,
-}
-
-impl HaloModel {
-    /// Every model, in the order tables list them.
-    pub const ALL: [Self; 4] = [Self::Sidm, Self::Nfw, Self::Burkert, Self::PseudoIsothermal];
-
-    /// The name used on the command line and in result tables.
-    #[must_use]
-    pub fn name(self) -> &'static str {
-        match self {
-            Self::Sidm => "sidm",
-            Self::Nfw => "nfw",
-            Self::Burkert => "burkert",
-            Self::PseudoIsothermal => "pseudo-iso",
-        }
-    }
-
-    /// The model called `name` (as [`HaloModel::name`] writes it).
-    #[must_use]
-    pub fn from_name(name: &str) -> Option<Self> {
-        Self::ALL
-            .into_iter()
-            .find(|m| m.name().eq_ignore_ascii_case(name.trim()))
-    }
-}
+/// Halo models a user can choose (the registry of halo families lives in the physics crate).
+pub use caldera_physics::HaloModel;
 
 /// What the user set for one galaxy (the controls' values).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -74,6 +42,55 @@ pub struct GalaxySettings {
     /// Overrides of the table's distance and inclination, when the user changed them.
     pub distance_mpc: Option<f64>,
     pub inclination_deg: Option<f64>,
+    /// Shape α of the Einasto halo.
+    #[serde(default = "default_einasto_alpha")]
+    pub einasto_alpha: f64,
+}
+
+fn default_einasto_alpha() -> f64 {
+    DEFAULT_EINASTO_ALPHA
+}
+
+/// The Einasto α a new galaxy starts with: ≈ 0.17, typical of simulated collisionless halos
+/// (Gao et al. 2008; from memory).
+pub const DEFAULT_EINASTO_ALPHA: f64 = 0.17;
+
+impl GalaxySettings {
+    /// The value set for `id`, if the settings hold one (σ0 is never set by hand; distance and
+    /// inclination only when the user overrode the table's).
+    #[must_use]
+    pub fn value(&self, id: ParamId) -> Option<f64> {
+        match id {
+            ParamId::SigmaM => Some(self.sigma_m_cm2_g),
+            ParamId::V200 => Some(self.v200_kms),
+            ParamId::C200 => Some(self.c200),
+            ParamId::Rho0 => Some(self.rho0_msun_kpc3),
+            ParamId::R0 | ParamId::Rc => Some(self.core_radius_kpc),
+            ParamId::EinastoAlpha => Some(self.einasto_alpha),
+            ParamId::UpsilonDisk => Some(self.upsilon_disk),
+            ParamId::UpsilonBulge => Some(self.upsilon_bulge),
+            ParamId::Distance => self.distance_mpc,
+            ParamId::Inclination => self.inclination_deg,
+            ParamId::Sigma0 => None,
+        }
+    }
+
+    /// Sets `id` to `value` (ignored for parameters the settings do not hold).
+    pub fn set_value(&mut self, id: ParamId, value: f64) {
+        match id {
+            ParamId::SigmaM => self.sigma_m_cm2_g = value,
+            ParamId::V200 => self.v200_kms = value,
+            ParamId::C200 => self.c200 = value,
+            ParamId::Rho0 => self.rho0_msun_kpc3 = value,
+            ParamId::R0 | ParamId::Rc => self.core_radius_kpc = value,
+            ParamId::EinastoAlpha => self.einasto_alpha = value,
+            ParamId::UpsilonDisk => self.upsilon_disk = value,
+            ParamId::UpsilonBulge => self.upsilon_bulge = value,
+            ParamId::Distance => self.distance_mpc = Some(value),
+            ParamId::Inclination => self.inclination_deg = Some(value),
+            ParamId::Sigma0 => {}
+        }
+    }
 }
 
 fn default_cored_rho0() -> f64 {
@@ -98,6 +115,7 @@ impl Default for GalaxySettings {
             core_radius_kpc: default_cored_radius(),
             distance_mpc: None,
             inclination_deg: None,
+            einasto_alpha: DEFAULT_EINASTO_ALPHA,
         }
     }
 }

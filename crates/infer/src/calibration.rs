@@ -108,24 +108,10 @@ pub struct CoverageReport {
 
 /// Draws true parameters from the fit's prior by rejection (see the module documentation).
 pub fn draw_from_prior(model: &GalaxyModel, rng: &mut Xoshiro256PlusPlus) -> Option<Vec<f64>> {
-    let centre = model.centre();
     let priors = model.priors;
     let peak = ln_normal(0.0, 0.0, priors.concentration_scatter_dex);
     for _ in 0..100_000 {
-        let mut theta = centre.clone();
-        for (k, p) in model.parameters().iter().enumerate() {
-            theta[k] = if p.name.starts_with("log10_upsilon") {
-                let median = if p.name.ends_with("disk") {
-                    priors.upsilon_disk_median
-                } else {
-                    priors.upsilon_bulge_median
-                };
-                let z: f64 = StandardNormal.sample(rng);
-                median.log10() + priors.upsilon_scatter_dex * z
-            } else {
-                p.lower + (p.upper - p.lower) * rng.random::<f64>()
-            };
-        }
+        let theta = model.layout().draw(rng);
         if !model.in_bounds(&theta) {
             continue;
         }
@@ -230,7 +216,7 @@ pub fn coverage_run(
         config.cosmology,
         config.age_gyr,
     )?;
-    let names: Vec<String> = model.parameters().iter().map(|p| p.name.clone()).collect();
+    let names = model.layout().columns();
     let results: Vec<Result<MockOutcome, InferError>> = (0..n_mocks)
         .into_par_iter()
         .map(|i| one_mock(i, seed, config))

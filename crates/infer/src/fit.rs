@@ -4,7 +4,7 @@ use std::collections::BTreeMap;
 
 use caldera_data::session::HaloModel;
 use caldera_data::{GalaxyTable, OutputTable};
-use caldera_physics::Cosmology;
+use caldera_physics::{Cosmology, ParamId, ParamValues};
 use rand::SeedableRng;
 use rand_distr::{Distribution, StandardNormal};
 use rand_xoshiro::Xoshiro256PlusPlus;
@@ -12,7 +12,8 @@ use serde::{Deserialize, Serialize};
 
 use crate::InferError;
 use crate::diagnostics::split_rhat;
-use crate::model::{DERIVED_NAMES, Derived, Evaluation, FailureSummary, GalaxyModel, Parameter};
+use crate::layout::ParamSpec;
+use crate::model::{DERIVED_NAMES, Derived, Evaluation, FailureSummary, GalaxyModel};
 use crate::optimize::maximum_a_posteriori;
 use crate::priors::Priors;
 use crate::sampler::{ChainStore, EnsembleState, LogDensity, MoveMix, Observer, RunConfig, run};
@@ -54,7 +55,9 @@ impl Default for FitConfig {
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct FitSummary {
     pub galaxy: String,
-    pub model: String,
+    /// The halo model (written by its name, e.g. "sidm").
+    #[serde(with = "model_name")]
+    pub model: HaloModel,
     pub sigma_m_cm2_g: Option<Interval>,
     pub v_rel_kms: Option<Interval>,
     pub r1_kpc: Option<Interval>,
@@ -89,7 +92,7 @@ pub struct FitSummary {
     pub n_samples: usize,
     pub seed: u64,
     pub age_gyr: f64,
-    /// Best-fitting physical parameter values, by sampled-parameter name.
+    /// Best-fitting physical parameter values, by parameter key ([`caldera_physics::ParamId::key`]).
     pub best_fit: BTreeMap<String, f64>,
     pub failures: FailureSummary,
 }
@@ -98,7 +101,7 @@ pub struct FitSummary {
 #[derive(Debug, Clone)]
 pub struct FitResult {
     pub summary: FitSummary,
-    pub parameters: Vec<Parameter>,
+    pub parameters: Vec<ParamSpec>,
     pub chain: ChainStore,
     pub burn_in: usize,
     pub thin: usize,
@@ -184,9 +187,9 @@ pub fn fit_galaxy<O: Observer>(
     let n = posterior.n_points();
     let dof = n.saturating_sub(k);
     let mut sigma_m = interval(column(Derived::SigmaM));
-    if model == HaloModel::Sidm {
-        let p = &posterior.parameters()[2];
-        let coordinates: Vec<f64> = kept.iter().map(|&(s, w)| chain.position(s, w, 2)).collect();
+    if let Some(k) = posterior.layout().index_of(ParamId::SigmaM) {
+        let p = &posterior.parameters()[k];
+        let coordinates: Vec<f64> = kept.iter().map(|&(s, w)| chain.position(s, w, k)).collect();
         if piles_at_lower_bound(&coordinates, p.lower, p.upper)
             && let Some(summary) = sigma_m.as_mut()
         {
@@ -200,7 +203,7 @@ pub fn fit_galaxy<O: Observer>(
         .fold(f64::NAN, f64::max);
     let summary = FitSummary {
         galaxy: table.meta.name.clone(),
-        model: model.name().to_string(),
+        model,
         sigma_m_cm2_g: sigma_m,
         v_rel_kms: interval(column(Derived::VRel)),
         r1_kpc: interval(column(Derived::R1)),
@@ -238,13 +241,9 @@ pub fn fit_galaxy<O: Observer>(
         seed: config.seed,
         age_gyr: posterior.age_gyr,
         best_fit: posterior
-            .parameters()
+            .values(&best_theta)
             .iter()
-            .zip(&best_theta)
-            .map(|(p, &x)| {
-                let name = p.name.strip_prefix("log10_").unwrap_or(&p.name).to_string();
-                (name, p.physical(x))
-            })
+            .map(|(id, value)| (id.key().to_string(), value))
             .collect(),
         failures: posterior.failure_summary(),
     };
@@ -257,6 +256,35 @@ pub fn fit_galaxy<O: Observer>(
         best_theta,
         best,
     })
+}
+
+impl FitSummary {
+    /// The best-fitting physical values as typed parameters (keys that name no parameter are
+    /// skipped).
+    #[must_use]
+    pub fn best_values(&self) -> ParamValues {
+        ParamValues::from_pairs(
+            self.best_fit
+                .iter()
+                .filter_map(|(key, &v)| ParamId::from_key(key).map(|id| (id, v))),
+        )
+    }
+}
+
+/// Writes a [`HaloModel`] by its command-line name and reads it back.
+mod model_name {
+    use caldera_data::session::HaloModel;
+    use serde::{Deserialize, Deserializer, Serializer, de::Error};
+
+    pub fn serialize<S: Serializer>(model: &HaloModel, serializer: S) -> Result<S::Ok, S::Error> {
+        serializer.serialize_str(model.name())
+    }
+
+    pub fn deserialize<'de, D: Deserializer<'de>>(deserializer: D) -> Result<HaloModel, D::Error> {
+        let name = String::deserialize(deserializer)?;
+        HaloModel::from_name(&name)
+            .ok_or_else(|| D::Error::custom(format!("unknown halo model '{name}'")))
+    }
 }
 
 impl FitResult {
@@ -273,7 +301,7 @@ impl FitResult {
             );
         for (p, parameter) in self.parameters.iter().enumerate() {
             table = table.with_column(
-                &parameter.name,
+                &parameter.column(),
                 None,
                 kept.iter()
                     .map(|&(s, w)| self.chain.position(s, w, p))

@@ -5,6 +5,7 @@ pub mod calibration;
 pub mod diagnostics;
 mod error;
 pub mod fit;
+pub mod layout;
 pub mod model;
 pub mod optimize;
 pub mod population;

@@ -14,45 +14,15 @@ use caldera_data::GalaxyTable;
 use caldera_data::session::HaloModel;
 use caldera_physics::units::DEFAULT_HALO_AGE_GYR;
 use caldera_physics::{
-    BaryonTable, Burkert, Cosmology, CrossSection, HaloProfile, Nfw, PhysicsError,
-    PseudoIsothermal, SidmSetup, sidm, units::G_KPC_KMS2_PER_MSUN, virial_quantities,
+    BaryonTable, BuiltHalo, Cosmology, HaloContext, HaloDerived, NoBaryons, ParamId, ParamValues,
+    PhysicsError, Transform, units::G_KPC_KMS2_PER_MSUN,
 };
 use serde::{Deserialize, Serialize};
 
 use crate::InferError;
+use crate::layout::{Layout, ParamSpec};
 use crate::priors::{Priors, ln_normal};
 use crate::sampler::LogDensity;
-
-/// One sampled parameter: its name (with unit), bounds in the sampled coordinate, and whether
-/// the coordinate is a base-10 logarithm of the physical value.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-pub struct Parameter {
-    pub name: String,
-    pub lower: f64,
-    pub upper: f64,
-    pub log10: bool,
-}
-
-impl Parameter {
-    fn new(name: &str, (lower, upper): (f64, f64), log10: bool) -> Self {
-        Self {
-            name: name.into(),
-            lower,
-            upper,
-            log10,
-        }
-    }
-
-    /// The physical value of a sampled coordinate.
-    #[must_use]
-    pub fn physical(&self, coordinate: f64) -> f64 {
-        if self.log10 {
-            10f64.powf(coordinate)
-        } else {
-            coordinate
-        }
-    }
-}
 
 /// Names of the derived quantities recorded with every sample, with units.
 pub const DERIVED_NAMES: [&str; 13] = [
@@ -108,10 +78,9 @@ pub struct FailureSummary {
     pub evaluations: u64,
 }
 
-/// Where each kind of parameter sits in the vector.
+/// Where the nuisances sit in θ (looked up once in the layout).
 #[derive(Debug, Clone, Copy, PartialEq)]
-struct Layout {
-    halo: usize,
+struct NuisanceSlots {
     upsilon_disk: usize,
     upsilon_bulge: Option<usize>,
     distance: Option<usize>,
@@ -125,8 +94,8 @@ pub struct GalaxyModel {
     pub priors: Priors,
     pub cosmology: Cosmology,
     pub age_gyr: f64,
-    parameters: Vec<Parameter>,
     layout: Layout,
+    slots: NuisanceSlots,
     radius_kpc: Vec<f64>,
     v_obs_kms: Vec<f64>,
     v_err_kms: Vec<f64>,
@@ -158,6 +127,115 @@ fn signed_square(v: f64) -> f64 {
     v * v.abs()
 }
 
+/// The layout of a galaxy's posterior under `model`: the family's halo parameters (σ/m by its
+/// own prior, the Einasto α fixed when the user says so), then Υ_disk, Υ_bulge (when the table
+/// has a bulge), distance and inclination (when the user lets them vary and the table gives their
+/// errors). Also returns the table's (distance, error) and (inclination, error).
+#[allow(clippy::type_complexity)]
+fn galaxy_layout(
+    table: &GalaxyTable,
+    model: HaloModel,
+    priors: &Priors,
+) -> Result<(Layout, Option<(f64, f64)>, Option<(f64, f64)>), InferError> {
+    let mut specs = Vec::new();
+    let mut fixed = ParamValues::default();
+    for &id in model.family().parameters() {
+        match id {
+            ParamId::SigmaM => {
+                let xs = priors.cross_section;
+                if !(xs.min_cm2_g > 0.0 && xs.max_cm2_g > xs.min_cm2_g) {
+                    return Err(InferError::Config(format!(
+                        "sigma/m bounds must satisfy 0 < min < max, got {} and {}",
+                        xs.min_cm2_g, xs.max_cm2_g
+                    )));
+                }
+                let transform = if xs.logarithmic {
+                    Transform::Log10
+                } else {
+                    Transform::Linear
+                };
+                let bounds = (
+                    transform.to_coordinate(xs.min_cm2_g),
+                    transform.to_coordinate(xs.max_cm2_g),
+                );
+                specs.push(ParamSpec::uniform(id, transform, bounds));
+            }
+            ParamId::EinastoAlpha if priors.einasto_alpha_fixed.is_some() => {
+                let alpha = priors.einasto_alpha_fixed.unwrap_or_default();
+                if !(alpha.is_finite() && alpha > 0.0) {
+                    return Err(InferError::Config(format!(
+                        "the fixed Einasto alpha must be positive, got {alpha}"
+                    )));
+                }
+                fixed.set(id, alpha);
+            }
+            _ => {
+                let bounds = priors.halo.log10_bounds(id).ok_or_else(|| {
+                    InferError::Config(format!(
+                        "no prior bounds for the halo parameter {}",
+                        id.key()
+                    ))
+                })?;
+                specs.push(ParamSpec::uniform(id, Transform::Log10, bounds));
+            }
+        }
+    }
+    let halo_len = specs.len();
+    let spread = 5.0 * priors.upsilon_scatter_dex;
+    let upsilon = |id: ParamId, median: f64| {
+        let centre = median.log10();
+        ParamSpec::normal(
+            id,
+            Transform::Log10,
+            (centre - spread, centre + spread),
+            centre,
+            priors.upsilon_scatter_dex,
+        )
+    };
+    specs.push(upsilon(ParamId::UpsilonDisk, priors.upsilon_disk_median));
+    if table.v_bulge_kms.is_some() {
+        specs.push(upsilon(ParamId::UpsilonBulge, priors.upsilon_bulge_median));
+    }
+    let distance_mpc = table
+        .meta
+        .distance_mpc
+        .filter(|d| *d > 0.0)
+        .map(|d| (d, table.meta.distance_err_mpc.unwrap_or(0.0)));
+    let inclination_deg = table
+        .meta
+        .inclination_deg
+        .filter(|i| *i > 0.0)
+        .map(|i| (i, table.meta.inclination_err_deg.unwrap_or(0.0)));
+    // A nuisance is sampled only when the user lets it vary and the table gives its error.
+    let with_error = |(_, e): &(f64, f64)| e.is_finite() && *e > 0.0;
+    if let Some((d, e)) = distance_mpc.filter(|pair| priors.vary_distance && with_error(pair)) {
+        let bounds = ((d - 5.0 * e).max(1e-3 * d), d + 5.0 * e);
+        specs.push(ParamSpec::normal(
+            ParamId::Distance,
+            Transform::Linear,
+            bounds,
+            d,
+            e,
+        ));
+    }
+    if let Some((i, e)) = inclination_deg.filter(|pair| priors.vary_inclination && with_error(pair))
+    {
+        let bounds = ((i - 5.0 * e).max(5.0), (i + 5.0 * e).min(90.0));
+        specs.push(ParamSpec::normal(
+            ParamId::Inclination,
+            Transform::Linear,
+            bounds,
+            i,
+            e,
+        ));
+    }
+    Ok((
+        Layout::new(specs, halo_len, fixed),
+        distance_mpc,
+        inclination_deg,
+    ))
+}
+
 impl GalaxyModel {
     /// Sets up the posterior of `model` for `table`.
     pub fn new(
@@ -167,94 +245,17 @@ impl GalaxyModel {
         cosmology: Cosmology,
         age_gyr: Option<f64>,
     ) -> Result<Self, InferError> {
-        let b = priors.halo;
-        let mut parameters = match model {
-            HaloModel::Sidm => {
-                let xs = priors.cross_section;
-                if !(xs.min_cm2_g > 0.0 && xs.max_cm2_g > xs.min_cm2_g) {
-                    return Err(InferError::Config(format!(
-                        "sigma/m bounds must satisfy 0 < min < max, got {} and {}",
-                        xs.min_cm2_g, xs.max_cm2_g
-                    )));
-                }
-                let sigma = if xs.logarithmic {
-                    Parameter::new(
-                        "log10_sigma_m_cm2_g",
-                        (xs.min_cm2_g.log10(), xs.max_cm2_g.log10()),
-                        true,
-                    )
-                } else {
-                    Parameter::new("sigma_m_cm2_g", (xs.min_cm2_g, xs.max_cm2_g), false)
-                };
-                vec![
-                    Parameter::new("log10_rho0_msun_kpc3", b.log10_rho0, true),
-                    Parameter::new("log10_sigma0_kms", b.log10_sigma0, true),
-                    sigma,
-                ]
-            }
-            HaloModel::Nfw => vec![
-                Parameter::new("log10_v200_kms", b.log10_v200, true),
-                Parameter::new("log10_c200", b.log10_c200, true),
-            ],
-            HaloModel::Burkert => vec![
-                Parameter::new("log10_rho0_msun_kpc3", b.log10_rho0, true),
-                Parameter::new("log10_r0_kpc", b.log10_core_radius, true),
-            ],
-            HaloModel::PseudoIsothermal => vec![
-                Parameter::new("log10_rho0_msun_kpc3", b.log10_rho0, true),
-                Parameter::new("log10_rc_kpc", b.log10_core_radius, true),
-            ],
+        let (layout, distance_mpc, inclination_deg) = galaxy_layout(table, model, &priors)?;
+        let slot = |id: ParamId| layout.index_of(id);
+        let slots = NuisanceSlots {
+            upsilon_disk: slot(ParamId::UpsilonDisk).ok_or_else(|| {
+                InferError::Config("the layout lacks the disk mass-to-light ratio".into())
+            })?,
+            upsilon_bulge: slot(ParamId::UpsilonBulge),
+            distance: slot(ParamId::Distance),
+            inclination: slot(ParamId::Inclination),
         };
-        let halo = 0;
-        let upsilon_disk = parameters.len();
-        let spread = 5.0 * priors.upsilon_scatter_dex;
-        let around = |median: f64| (median.log10() - spread, median.log10() + spread);
-        parameters.push(Parameter::new(
-            "log10_upsilon_disk",
-            around(priors.upsilon_disk_median),
-            true,
-        ));
-        let upsilon_bulge = table.v_bulge_kms.as_ref().map(|_| {
-            parameters.push(Parameter::new(
-                "log10_upsilon_bulge",
-                around(priors.upsilon_bulge_median),
-                true,
-            ));
-            parameters.len() - 1
-        });
-        let distance_mpc = table
-            .meta
-            .distance_mpc
-            .filter(|d| *d > 0.0)
-            .map(|d| (d, table.meta.distance_err_mpc.unwrap_or(0.0)));
-        let inclination_deg = table
-            .meta
-            .inclination_deg
-            .filter(|i| *i > 0.0)
-            .map(|i| (i, table.meta.inclination_err_deg.unwrap_or(0.0)));
-        // A nuisance is sampled only when the user lets it vary and the table gives its error.
-        let with_error = |(_, e): &(f64, f64)| e.is_finite() && *e > 0.0;
-        let distance = distance_mpc
-            .filter(|pair| priors.vary_distance && with_error(pair))
-            .map(|(d, e)| {
-                parameters.push(Parameter::new(
-                    "distance_mpc",
-                    ((d - 5.0 * e).max(1e-3 * d), d + 5.0 * e),
-                    false,
-                ));
-                parameters.len() - 1
-            });
-        let inclination = inclination_deg
-            .filter(|pair| priors.vary_inclination && with_error(pair))
-            .map(|(i, e)| {
-                parameters.push(Parameter::new(
-                    "inclination_deg",
-                    ((i - 5.0 * e).max(5.0), (i + 5.0 * e).min(90.0)),
-                    false,
-                ));
-                parameters.len() - 1
-            });
-        table.check_enough_points(parameters.len())?;
+        table.check_enough_points(layout.len())?;
 
         let n = table.len();
         let mut unique: Vec<(f64, usize, usize)> = Vec::new();
@@ -276,14 +277,8 @@ impl GalaxyModel {
             age_gyr: age_gyr
                 .or(table.meta.age_gyr)
                 .unwrap_or(DEFAULT_HALO_AGE_GYR),
-            parameters,
-            layout: Layout {
-                halo,
-                upsilon_disk,
-                upsilon_bulge,
-                distance,
-                inclination,
-            },
+            layout,
+            slots,
             radius_kpc: table.radius_kpc.clone(),
             v_obs_kms: table.v_obs_kms.clone(),
             v_err_kms: table.v_err_kms.clone(),
@@ -304,8 +299,14 @@ impl GalaxyModel {
 
     /// The sampled parameters, in order.
     #[must_use]
-    pub fn parameters(&self) -> &[Parameter] {
-        &self.parameters
+    pub fn parameters(&self) -> &[ParamSpec] {
+        self.layout.specs()
+    }
+
+    /// The layout of θ: parameters, bounds, priors, fixed values.
+    #[must_use]
+    pub fn layout(&self) -> &Layout {
+        &self.layout
     }
 
     /// Number of data points.
@@ -328,45 +329,49 @@ impl GalaxyModel {
     /// True when every coordinate lies within its bounds.
     #[must_use]
     pub fn in_bounds(&self, theta: &[f64]) -> bool {
-        theta.len() == self.parameters.len()
-            && theta
-                .iter()
-                .zip(&self.parameters)
-                .all(|(x, p)| x.is_finite() && *x >= p.lower && *x <= p.upper)
+        self.layout.in_bounds(theta)
     }
 
     /// A central starting point: mid-bounds for the halo, prior medians for the nuisances.
     #[must_use]
     pub fn centre(&self) -> Vec<f64> {
-        let mut theta: Vec<f64> = self
-            .parameters
-            .iter()
-            .map(|p| 0.5 * (p.lower + p.upper))
-            .collect();
-        theta[self.layout.upsilon_disk] = self.priors.upsilon_disk_median.log10();
-        if let Some(k) = self.layout.upsilon_bulge {
-            theta[k] = self.priors.upsilon_bulge_median.log10();
+        self.layout.centre()
+    }
+
+    /// θ for physical `values` (a fit's best fit, the app's controls); parameters without a value
+    /// sit at their prior's centre.
+    #[must_use]
+    pub fn theta_from_values(&self, values: &ParamValues) -> Vec<f64> {
+        self.layout.theta_from_values(values)
+    }
+
+    /// The physical values at θ (fixed parameters included).
+    #[must_use]
+    pub fn values(&self, theta: &[f64]) -> ParamValues {
+        self.layout.values(theta)
+    }
+
+    /// The context the halo family builds in at θ's nuisances: cosmology, age and (when the
+    /// family uses them) the baryons, which `baryons` must outlive.
+    pub fn halo_context<'a>(&self, baryons: &'a BaryonTable) -> HaloContext<'a> {
+        HaloContext {
+            cosmology: self.cosmology,
+            baryons,
+            age_gyr: self.age_gyr,
         }
-        if let (Some(k), Some((d, _))) = (self.layout.distance, self.distance_mpc) {
-            theta[k] = d;
-        }
-        if let (Some(k), Some((i, _))) = (self.layout.inclination, self.inclination_deg) {
-            theta[k] = i;
-        }
-        theta
     }
 
     fn nuisances(&self, theta: &[f64]) -> (f64, f64, f64, f64) {
-        let upsilon_disk = 10f64.powf(theta[self.layout.upsilon_disk]);
+        let upsilon_disk = 10f64.powf(theta[self.slots.upsilon_disk]);
         let upsilon_bulge = self
-            .layout
+            .slots
             .upsilon_bulge
             .map_or(self.priors.upsilon_bulge_median, |k| 10f64.powf(theta[k]));
-        let distance_factor = match (self.layout.distance, self.distance_mpc) {
+        let distance_factor = match (self.slots.distance, self.distance_mpc) {
             (Some(k), Some((d, _))) => theta[k] / d,
             _ => 1.0,
         };
-        let inclination_factor = match (self.layout.inclination, self.inclination_deg) {
+        let inclination_factor = match (self.slots.inclination, self.inclination_deg) {
             (Some(k), Some((i, _))) => i.to_radians().sin() / theta[k].to_radians().sin(),
             _ => 1.0,
         };
@@ -383,6 +388,15 @@ impl GalaxyModel {
         &self,
         theta: &[f64],
     ) -> Result<(Evaluation, [f64; DERIVED_NAMES.len()]), PhysicsError> {
+        self.evaluate_with_halo(theta)
+            .map(|(evaluation, derived, _)| (evaluation, derived))
+    }
+
+    /// [`GalaxyModel::evaluate`], also returning the built halo.
+    fn evaluate_with_halo(
+        &self,
+        theta: &[f64],
+    ) -> Result<(Evaluation, [f64; DERIVED_NAMES.len()], BuiltHalo), PhysicsError> {
         let (upsilon_disk, upsilon_bulge, distance_factor, inclination_factor) =
             self.nuisances(theta);
         let n = self.n_points();
@@ -394,15 +408,13 @@ impl GalaxyModel {
         let v_baryon2_kms2 = self.baryon_v2_rows(upsilon_disk, upsilon_bulge, distance_factor);
         let mut derived = [f64::NAN; DERIVED_NAMES.len()];
         derived[Derived::UpsilonDisk as usize] = upsilon_disk;
-        derived[Derived::UpsilonBulge as usize] = self
-            .layout
-            .upsilon_bulge
-            .map_or(f64::NAN, |_| upsilon_bulge);
+        derived[Derived::UpsilonBulge as usize] =
+            self.slots.upsilon_bulge.map_or(f64::NAN, |_| upsilon_bulge);
         derived[Derived::Distance as usize] = self
             .distance_mpc
             .map_or(f64::NAN, |(d, _)| d * distance_factor);
         derived[Derived::Inclination as usize] =
-            match (self.layout.inclination, self.inclination_deg) {
+            match (self.slots.inclination, self.inclination_deg) {
                 (Some(k), _) => theta[k],
                 (None, Some((i, _))) => i,
                 _ => f64::NAN,
@@ -416,7 +428,7 @@ impl GalaxyModel {
         let mut v_model_kms = Vec::with_capacity(n);
         let mut v_halo_kms = Vec::with_capacity(n);
         for i in 0..n {
-            let v_halo = halo.v_circ_kms(radius_kpc[i]);
+            let v_halo = halo.profile.v_circ_kms(radius_kpc[i]);
             let v_model = (v_halo * v_halo + v_baryon2_kms2[i]).max(0.0).sqrt();
             let v_obs = self.v_obs_kms[i] * inclination_factor;
             let scaled_err = self.v_err_kms[i] * inclination_factor;
@@ -444,6 +456,7 @@ impl GalaxyModel {
                 chi2,
             },
             derived,
+            halo,
         ))
     }
 
@@ -499,81 +512,38 @@ impl GalaxyModel {
         distance_factor: f64,
         v_baryon2_kms2: &[f64],
         derived: &mut [f64; DERIVED_NAMES.len()],
-    ) -> Result<Box<dyn HaloProfile>, PhysicsError> {
-        let h = self.layout.halo;
-        let p = |k: usize| self.parameters[h + k].physical(theta[h + k]);
-        let halo: Box<dyn HaloProfile> = match self.model {
-            HaloModel::Sidm => {
-                let baryons = self.baryon_mass_model(distance_factor, v_baryon2_kms2)?;
-                let setup = SidmSetup {
-                    cross_section: CrossSection::constant(p(2))?,
-                    age_gyr: self.age_gyr,
-                    baryons: &baryons,
-                    cosmology: self.cosmology,
-                };
-                let halo = sidm::core_first(&setup, p(0), p(1))?;
-                let s = halo.summary();
-                derived[Derived::SigmaM as usize] = p(2);
-                derived[Derived::VRel as usize] = s.v_rel_kms;
-                derived[Derived::R1 as usize] = s.r1_kpc;
-                derived[Derived::CoreRadius as usize] = s.core_radius_kpc;
-                derived[Derived::V200 as usize] = s.v200_kms;
-                derived[Derived::C200 as usize] = s.c200;
-                derived[Derived::M200 as usize] = s.m200_msun;
-                Box::new(halo)
-            }
-            HaloModel::Nfw => {
-                let nfw = Nfw::from_v200_c200(p(0), p(1), &self.cosmology)?;
-                let v = nfw.virial(&self.cosmology)?;
-                derived[Derived::V200 as usize] = v.v200_kms;
-                derived[Derived::C200 as usize] = v.c200;
-                derived[Derived::M200 as usize] = v.m200_msun;
-                Box::new(nfw)
-            }
-            HaloModel::Burkert => {
-                let burkert = Burkert::new(p(0), p(1))?;
-                let v = virial_quantities(
-                    &burkert,
-                    Burkert::r_minus2_over_r0() * p(1),
-                    &self.cosmology,
-                )?;
-                derived[Derived::CoreRadius as usize] = p(1);
-                derived[Derived::V200 as usize] = v.v200_kms;
-                derived[Derived::C200 as usize] = v.c200;
-                derived[Derived::M200 as usize] = v.m200_msun;
-                Box::new(burkert)
-            }
-            HaloModel::PseudoIsothermal => {
-                let iso = PseudoIsothermal::new(p(0), p(1))?;
-                let v = virial_quantities(&iso, f64::NAN, &self.cosmology)?;
-                derived[Derived::CoreRadius as usize] = p(1);
-                derived[Derived::V200 as usize] = v.v200_kms;
-                derived[Derived::M200 as usize] = v.m200_msun;
-                Box::new(iso)
-            }
+    ) -> Result<BuiltHalo, PhysicsError> {
+        let family = self.model.family();
+        let values = self.layout.values(theta);
+        let built = if family.uses_baryons() {
+            let baryons = self.baryon_mass_model(distance_factor, v_baryon2_kms2)?;
+            family.build(&values, &self.halo_context(&baryons))?
+        } else {
+            let context = HaloContext {
+                cosmology: self.cosmology,
+                baryons: &NoBaryons,
+                age_gyr: self.age_gyr,
+            };
+            family.build(&values, &context)?
         };
-        Ok(halo)
+        let d = built.derived;
+        let mut put = |slot: Derived, value: Option<f64>| {
+            derived[slot as usize] = value.unwrap_or(f64::NAN);
+        };
+        put(Derived::SigmaM, d.sigma_m_cm2_g);
+        put(Derived::VRel, d.v_rel_kms);
+        put(Derived::R1, d.r1_kpc);
+        put(Derived::CoreRadius, d.core_radius_kpc);
+        put(Derived::V200, d.v200_kms);
+        put(Derived::C200, d.c200);
+        put(Derived::M200, d.m200_msun);
+        Ok(built)
     }
 
     /// ln prior of the nuisances and the concentration–mass relation (the halo parameters'
     /// uniform priors contribute a constant inside the bounds).
     fn log_prior(&self, theta: &[f64], derived: &[f64]) -> f64 {
-        let mut lp = 0.0;
-        let scatter = self.priors.upsilon_scatter_dex;
-        lp += ln_normal(
-            theta[self.layout.upsilon_disk],
-            self.priors.upsilon_disk_median.log10(),
-            scatter,
-        );
-        if let Some(k) = self.layout.upsilon_bulge {
-            lp += ln_normal(theta[k], self.priors.upsilon_bulge_median.log10(), scatter);
-        }
-        if let (Some(k), Some((d, e))) = (self.layout.distance, self.distance_mpc) {
-            lp += ln_normal(theta[k], d, e);
-        }
-        if let (Some(k), Some((i, e))) = (self.layout.inclination, self.inclination_deg) {
-            lp += ln_normal(theta[k], i, e);
-        }
+        let mut lp = self.layout.ln_prior(theta);
         let (m200, c200) = (
             derived[Derived::M200 as usize],
             derived[Derived::C200 as usize],
@@ -605,6 +575,10 @@ pub struct Components {
     pub core_radius_kpc: Option<f64>,
     /// χ² of the model against the (rescaled) data.
     pub chi2: f64,
+    /// The halo's derived quantities (V200, c200, the SIDM core, ...).
+    pub halo: HaloDerived,
+    /// The physical values of every parameter at this θ (fixed ones included).
+    pub parameters: ParamValues,
 }
 
 fn signed_root(v2: f64) -> f64 {
@@ -614,15 +588,9 @@ fn signed_root(v2: f64) -> f64 {
 impl GalaxyModel {
     /// The pieces of the model at `theta` for plotting (see [`Components`]).
     pub fn components(&self, theta: &[f64]) -> Result<Components, PhysicsError> {
-        let (evaluation, derived) = self.evaluate(theta)?;
+        let (evaluation, derived, built) = self.evaluate_with_halo(theta)?;
         let (upsilon_disk, upsilon_bulge, distance_factor, _) = self.nuisances(theta);
-        let mut scratch = derived;
-        let halo = self.build_halo(
-            theta,
-            distance_factor,
-            &evaluation.v_baryon2_kms2,
-            &mut scratch,
-        )?;
+        let halo = &built.profile;
         let n = self.n_points();
         let scaled = |v2: &[f64], factor: f64| -> Vec<f64> {
             v2.iter()
@@ -665,7 +633,7 @@ impl GalaxyModel {
             v_gas_kms: scaled(&self.gas2, 1.0),
             v_disk_kms: scaled(&self.disk2, upsilon_disk),
             v_bulge_kms: self
-                .layout
+                .slots
                 .upsilon_bulge
                 .map(|_| scaled(&self.bulge2, upsilon_bulge)),
             radius_kpc: evaluation.radius_kpc,
@@ -678,13 +646,15 @@ impl GalaxyModel {
             r1_kpc: finite(derived[Derived::R1 as usize]),
             core_radius_kpc: finite(derived[Derived::CoreRadius as usize]),
             chi2: evaluation.chi2,
+            halo: built.derived,
+            parameters: self.layout.values(theta),
         })
     }
 }
 
 impl LogDensity for GalaxyModel {
     fn dim(&self) -> usize {
-        self.parameters.len()
+        self.layout.len()
     }
 
     fn n_derived(&self) -> usize {

@@ -42,14 +42,11 @@ pub fn valid_random_start(
     tries: usize,
 ) -> Option<Vec<f64>> {
     let centre = model.centre();
-    let halo_parameters = match model.model {
-        caldera_data::session::HaloModel::Sidm => 3,
-        _ => 2,
-    };
+    let halo = model.layout().halo_specs();
     let mut derived = vec![f64::NAN; model.n_derived()];
     for _ in 0..tries {
         let mut theta = centre.clone();
-        for (k, p) in model.parameters().iter().enumerate().take(halo_parameters) {
+        for (k, p) in halo.iter().enumerate() {
             theta[k] = p.lower + (p.upper - p.lower) * rng.random::<f64>();
         }
         if model.log_density(&theta, &mut derived).is_finite() {
@@ -136,11 +133,7 @@ pub fn maximum_a_posteriori(
     seed: u64,
 ) -> Result<MapEstimate, InferError> {
     let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
-    let bounds: Vec<(f64, f64)> = model
-        .parameters()
-        .iter()
-        .map(|p| (p.lower, p.upper))
-        .collect();
+    let bounds = model.layout().bounds();
     multistart_nelder_mead(
         model,
         &bounds,

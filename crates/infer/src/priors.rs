@@ -13,7 +13,12 @@
 //! - Distance and inclination: Gaussian around the table's values with its errors (when the table
 //!   gives them), truncated to D > 0 and 5° < i ≤ 90°.
 //! - σ/m: uniform in log10 σ/m (default) or in σ/m, within user bounds.
+//! - Einasto α: uniform in log10 α within bounds, or held fixed at a user value.
+//!
+//! Which coordinates carry these priors is decided in one place, the galaxy's
+//! [`crate::layout::Layout`] (built in [`crate::model::GalaxyModel::new`]).
 
+use caldera_physics::ParamId;
 use serde::{Deserialize, Serialize};
 
 /// How σ/m is sampled and bounded.
@@ -48,6 +53,31 @@ pub struct HaloBounds {
     pub log10_c200: (f64, f64),
     /// log10 of core radii r0 or r_c, kpc (Burkert, pseudo-isothermal).
     pub log10_core_radius: (f64, f64),
+    /// log10 of the Einasto shape α (when it is sampled).
+    #[serde(default = "default_log10_einasto_alpha")]
+    pub log10_einasto_alpha: (f64, f64),
+}
+
+fn default_log10_einasto_alpha() -> (f64, f64) {
+    // α from 0.05 to 1: cusps as steep as NFW's to nearly flat cores (common practice).
+    (-1.3, 0.0)
+}
+
+impl HaloBounds {
+    /// Bounds of the log10 coordinate of a halo parameter (σ/m has its own prior:
+    /// [`CrossSectionPrior`]); None for a parameter that is not a halo parameter.
+    #[must_use]
+    pub fn log10_bounds(&self, id: ParamId) -> Option<(f64, f64)> {
+        match id {
+            ParamId::Rho0 => Some(self.log10_rho0),
+            ParamId::Sigma0 => Some(self.log10_sigma0),
+            ParamId::V200 => Some(self.log10_v200),
+            ParamId::C200 => Some(self.log10_c200),
+            ParamId::R0 | ParamId::Rc => Some(self.log10_core_radius),
+            ParamId::EinastoAlpha => Some(self.log10_einasto_alpha),
+            _ => None,
+        }
+    }
 }
 
 impl Default for HaloBounds {
@@ -58,6 +88,7 @@ impl Default for HaloBounds {
             log10_v200: (1.0, 2.7),
             log10_c200: (0.0, 1.7),
             log10_core_radius: (-1.5, 2.0),
+            log10_einasto_alpha: default_log10_einasto_alpha(),
         }
     }
 }
@@ -78,6 +109,9 @@ pub struct Priors {
     pub vary_inclination: bool,
     /// Added in quadrature to every velocity error, km/s.
     pub error_floor_kms: f64,
+    /// Hold the Einasto α at this value instead of sampling it.
+    #[serde(default)]
+    pub einasto_alpha_fixed: Option<f64>,
 }
 
 impl Default for Priors {
@@ -93,6 +127,7 @@ impl Default for Priors {
             vary_distance: true,
             vary_inclination: true,
             error_floor_kms: 0.0,
+            einasto_alpha_fixed: None,
         }
     }
 }

@@ -73,7 +73,7 @@ impl Session {
     pub fn result(&self, galaxy: &str, model: HaloModel) -> Option<&FitSummary> {
         self.results
             .iter()
-            .find(|r| r.galaxy == galaxy && r.model == model.name())
+            .find(|r| r.galaxy == galaxy && r.model == model)
     }
 
     /// Stores a result, replacing an earlier one for the same galaxy and model.

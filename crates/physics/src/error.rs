@@ -36,6 +36,9 @@ pub enum PhysicsError {
     /// Tabulated input is inconsistent (lengths differ, radii unsorted, ...).
     #[error("invalid tabulated input: {0}")]
     InvalidTable(String),
+    /// A model was asked to build itself without one of its parameters.
+    #[error("the parameter {what} is missing")]
+    MissingParameter { what: &'static str },
     /// A numerical solve did not converge.
     #[error("{what} did not converge")]
     NoConvergence { what: &'static str },

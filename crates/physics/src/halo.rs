@@ -7,6 +7,7 @@ use crate::PhysicsError;
 use crate::cosmology::{Cosmology, VIRIAL_OVERDENSITY};
 use crate::error::require_positive;
 use crate::roots::brent;
+use crate::special::{ln_gamma, regularized_lower_gamma};
 use crate::units::G_KPC_KMS2_PER_MSUN;
 
 /// A spherical dark-matter halo.
@@ -283,6 +284,79 @@ impl HaloProfile for PseudoIsothermal {
     }
 }
 
+/// The Einasto (1965) profile: ρ = ρ₋₂ exp{−(2/α)[(r/r₋₂)^α − 1]}, with r₋₂ the radius where
+/// the logarithmic slope is −2 and α the shape parameter. Enclosed mass (e.g. Cardone, Piedipalumbo
+/// & Tortora 2005, Eq. 11; Retana-Montenegro et al. 2012, Eq. 12):
+/// M(r) = 4π ρ₋₂ r₋₂³ (e^{2/α} / α) (2/α)^{−3/α} Γ(3/α) P(3/α, (2/α)(r/r₋₂)^α),
+/// P the regularised lower incomplete gamma function.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize, serde::Deserialize)]
+pub struct Einasto {
+    pub rho_minus2_msun_kpc3: f64,
+    pub r_minus2_kpc: f64,
+    pub alpha: f64,
+}
+
+impl Einasto {
+    /// An Einasto halo from ρ₋₂ (Msun/kpc³), r₋₂ (kpc) and α.
+    pub fn new(
+        rho_minus2_msun_kpc3: f64,
+        r_minus2_kpc: f64,
+        alpha: f64,
+    ) -> Result<Self, PhysicsError> {
+        Ok(Self {
+            rho_minus2_msun_kpc3: require_positive(
+                "Einasto density at r-2 [Msun/kpc3]",
+                rho_minus2_msun_kpc3,
+            )?,
+            r_minus2_kpc: require_positive("Einasto radius r-2 [kpc]", r_minus2_kpc)?,
+            alpha: require_positive("Einasto alpha", alpha)?,
+        })
+    }
+
+    /// ln of M(r) / (4π ρ₋₂ r₋₂³) as r → ∞: ln[(e^{2/α}/α) (2/α)^{−3/α} Γ(3/α)].
+    fn ln_total_mass_factor(alpha: f64) -> f64 {
+        let two_over_alpha = 2.0 / alpha;
+        two_over_alpha - alpha.ln() - 3.0 / alpha * two_over_alpha.ln() + ln_gamma(3.0 / alpha)
+    }
+
+    /// An Einasto halo from V200 (km/s), c200 = r200 / r₋₂ and α: r200 = V200 / (10 H0),
+    /// ρ₋₂ such that M(r200) = V200² r200 / G.
+    pub fn from_v200_c200(
+        v200_kms: f64,
+        c200: f64,
+        alpha: f64,
+        cosmology: &Cosmology,
+    ) -> Result<Self, PhysicsError> {
+        require_positive("V200 [km/s]", v200_kms)?;
+        require_positive("c200", c200)?;
+        require_positive("Einasto alpha", alpha)?;
+        let r200 = cosmology.r200_kpc_from_v200(v200_kms);
+        let r_minus2 = r200 / c200;
+        let m200 = v200_kms * v200_kms * r200 / G_KPC_KMS2_PER_MSUN;
+        let fraction = regularized_lower_gamma(3.0 / alpha, 2.0 / alpha * c200.powf(alpha));
+        let ln_unit_mass = (4.0 * PI * r_minus2.powi(3)).ln() + Self::ln_total_mass_factor(alpha);
+        let rho_minus2 = (m200.ln() - ln_unit_mass - fraction.ln()).exp();
+        Self::new(rho_minus2, r_minus2, alpha)
+    }
+}
+
+impl HaloProfile for Einasto {
+    fn density_msun_kpc3(&self, radius_kpc: f64) -> f64 {
+        let x = radius_kpc.max(0.0) / self.r_minus2_kpc;
+        self.rho_minus2_msun_kpc3 * (-2.0 / self.alpha * (x.powf(self.alpha) - 1.0)).exp()
+    }
+    fn enclosed_mass_msun(&self, radius_kpc: f64) -> f64 {
+        let x = radius_kpc.max(0.0) / self.r_minus2_kpc;
+        let a = self.alpha;
+        let fraction = regularized_lower_gamma(3.0 / a, 2.0 / a * x.powf(a));
+        4.0 * PI
+            * self.rho_minus2_msun_kpc3
+            * self.r_minus2_kpc.powi(3)
+            * Self::ln_total_mass_factor(a).exp()
+            * fraction
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -398,6 +472,44 @@ mod tests {
                 halo.enclosed_mass_msun(r * 1.0001),
                 max_relative = 1e-3
             );
+        }
+    }
+
+    #[test]
+    fn einasto_mass_is_the_integral_of_density_and_matches_v200() {
+        let cosmology = Cosmology::default();
+        for alpha in [0.12, 0.17, 0.3, 0.6] {
+            let halo = Einasto::from_v200_c200(80.0, 9.0, alpha, &cosmology).expect("halo");
+            // Trapezoid in ln r of 4π r³ ρ(r) from 1e-6 r₋₂ to 3 r₋₂.
+            let (lo, hi) = (
+                (1e-6 * halo.r_minus2_kpc).ln(),
+                (3.0 * halo.r_minus2_kpc).ln(),
+            );
+            let n = 40_000;
+            let h = (hi - lo) / f64::from(n);
+            let integrand = |t: f64| {
+                let r = t.exp();
+                4.0 * PI * r.powi(3) * halo.density_msun_kpc3(r)
+            };
+            let mut sum = 0.5 * (integrand(lo) + integrand(hi));
+            for k in 1..n {
+                sum += integrand(lo + h * f64::from(k));
+            }
+            assert_relative_eq!(
+                halo.enclosed_mass_msun(3.0 * halo.r_minus2_kpc),
+                sum * h,
+                max_relative = 1e-6
+            );
+            // V200 comes back at r200 = c200 r₋₂, and r₋₂ is where the log-slope is −2.
+            let r200 = 9.0 * halo.r_minus2_kpc;
+            assert_relative_eq!(halo.v_circ_kms(r200), 80.0, max_relative = 1e-10);
+            let slope = |r: f64| {
+                let e = 1e-5;
+                (halo.density_msun_kpc3(r * (1.0 + e)).ln()
+                    - halo.density_msun_kpc3(r * (1.0 - e)).ln())
+                    / ((1.0 + e).ln() - (1.0 - e).ln())
+            };
+            assert_relative_eq!(slope(halo.r_minus2_kpc), -2.0, max_relative = 1e-6);
         }
     }
 }

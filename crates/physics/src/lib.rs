@@ -25,8 +25,10 @@ pub mod baryons;
 pub mod cosmology;
 pub mod cross_section;
 mod error;
+pub mod families;
 pub mod halo;
 pub mod ode;
+pub mod params;
 mod roots;
 pub mod sidm;
 mod special;
@@ -38,8 +40,10 @@ pub use baryons::{
 pub use cosmology::Cosmology;
 pub use cross_section::CrossSection;
 pub use error::PhysicsError;
+pub use families::{BuiltHalo, HaloContext, HaloDerived, HaloFamily, HaloModel};
 pub use halo::{
-    Burkert, HaloProfile, Nfw, PseudoIsothermal, VirialQuantities, virial_quantities,
+    Burkert, Einasto, HaloProfile, Nfw, PseudoIsothermal, VirialQuantities, virial_quantities,
     virial_radius_kpc,
 };
+pub use params::{ParamId, ParamValues, Transform};
 pub use sidm::{Branch, SidmHalo, SidmSetup, SidmSummary};

@@ -256,7 +256,7 @@ impl Figure for RotationCurveFigure {
 #[derive(Debug, Clone, PartialEq)]
 pub struct CornerFigure {
     pub title: String,
-    /// Axis labels with units.
+    /// Axis labels with units (a layout's labels, e.g. "log σ/m [cm²/g]").
     pub names: Vec<String>,
     /// One column of samples per parameter.
     pub columns: Vec<Vec<f64>>,
@@ -264,26 +264,6 @@ pub struct CornerFigure {
 
 /// Samples drawn in each scatter panel, at most.
 const CORNER_POINTS: usize = 2500;
-
-/// A short axis label for a sampled parameter's name (falls back to the name).
-#[must_use]
-pub fn short_label(name: &str) -> String {
-    match name {
-        "log10_rho0_msun_kpc3" => "log ρ0 [Msun/kpc³]".into(),
-        "log10_sigma0_kms" => "log σ0 [km/s]".into(),
-        "log10_sigma_m_cm2_g" => "log σ/m [cm²/g]".into(),
-        "sigma_m_cm2_g" => "σ/m [cm²/g]".into(),
-        "log10_v200_kms" => "log V200 [km/s]".into(),
-        "log10_c200" => "log c200".into(),
-        "log10_r0_kpc" => "log r0 [kpc]".into(),
-        "log10_rc_kpc" => "log r_c [kpc]".into(),
-        "log10_upsilon_disk" => "log Υ_disk".into(),
-        "log10_upsilon_bulge" => "log Υ_bulge".into(),
-        "distance_mpc" => "D [Mpc]".into(),
-        "inclination_deg" => "i [deg]".into(),
-        other => other.into(),
-    }
-}
 
 impl Figure for CornerFigure {
     fn size(&self) -> (u32, u32) {
@@ -348,7 +328,7 @@ impl Figure for CornerFigure {
                         .label_style(font(tick))
                         .axis_desc_style(font(tick + 2));
                     if row == n - 1 {
-                        mesh.x_desc(short_label(&self.names[col])).x_labels(3);
+                        mesh.x_desc(self.names[col].as_str()).x_labels(3);
                     } else {
                         mesh.x_labels(0);
                     }
@@ -375,12 +355,12 @@ impl Figure for CornerFigure {
                         .label_style(font(tick))
                         .axis_desc_style(font(tick + 2));
                     if row == n - 1 {
-                        mesh.x_desc(short_label(&self.names[col])).x_labels(3);
+                        mesh.x_desc(self.names[col].as_str()).x_labels(3);
                     } else {
                         mesh.x_labels(0);
                     }
                     if col == 0 {
-                        mesh.y_desc(short_label(&self.names[row])).y_labels(3);
+                        mesh.y_desc(self.names[row].as_str()).y_labels(3);
                     } else {
                         mesh.y_labels(0);
                     }

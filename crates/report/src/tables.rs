@@ -32,7 +32,10 @@ type Quantity = (
 pub fn results_table(rows: &[ResultRow]) -> OutputTable {
     let mut table = OutputTable::default()
         .with_text_column("galaxy", rows.iter().map(|r| r.galaxy.clone()).collect())
-        .with_text_column("model", rows.iter().map(|r| r.model.clone()).collect());
+        .with_text_column(
+            "model",
+            rows.iter().map(|r| r.model.name().to_string()).collect(),
+        );
     let sigma = |r: &ResultRow| r.sigma_m_cm2_g;
     for (suffix, field) in [
         ("median", (|i: &Interval| i.median) as fn(&Interval) -> f64),
@@ -135,7 +138,7 @@ pub fn latex_table(rows: &[ResultRow]) -> String {
         out.push_str(&format!(
             "{}{dagger} & {} & {} & {} & {} & {} & {:.2} & {:.1} \\\\\n",
             latex_escape(&r.galaxy),
-            latex_escape(&r.model),
+            latex_escape(r.model.name()),
             latex_interval(r.sigma_m_cm2_g),
             latex_interval(r.v_rel_kms),
             latex_interval(r.v200_kms),

@@ -19,6 +19,7 @@ use rand_xoshiro::Xoshiro256PlusPlus;
 use serde::{Deserialize, Serialize};
 
 use caldera_data::OutsideConstraint;
+use caldera_physics::{ParamId, Transform};
 
 use crate::InferError;
 use crate::optimize::{MapEstimate, multistart_nelder_mead};
@@ -102,18 +103,20 @@ impl GalaxyPosterior {
         max_samples: usize,
     ) -> Result<Self, InferError> {
         require_logarithmic_prior(&fit.summary.galaxy, prior)?;
-        let index = |name: &str| {
+        let index = |id: ParamId| {
             fit.parameters
                 .iter()
-                .position(|p| p.name == name)
+                .position(|p| p.id == id && p.transform == Transform::Log10)
                 .ok_or_else(|| {
                     InferError::Config(format!(
-                        "galaxy '{}': the {} fit has no parameter {name} (population fits need SIDM fits)",
-                        fit.summary.galaxy, fit.summary.model
+                        "galaxy '{}': the {} fit has no parameter {} (population fits need SIDM fits)",
+                        fit.summary.galaxy,
+                        fit.summary.model.name(),
+                        id.column(Transform::Log10)
                     ))
                 })
         };
-        let (sigma0, sigma_m) = (index("log10_sigma0_kms")?, index("log10_sigma_m_cm2_g")?);
+        let (sigma0, sigma_m) = (index(ParamId::Sigma0)?, index(ParamId::SigmaM)?);
         let kept: Vec<(usize, usize)> = fit.chain.kept(fit.burn_in, fit.thin).collect();
         let column = |p: usize| -> Vec<f64> {
             kept.iter()
@@ -178,15 +181,16 @@ pub fn load_folder_posteriors(
             ))
         })?;
         let chain = caldera_data::read_numeric_csv(&chain_path)?;
-        let column = |name: &str| {
-            chain.column(name).ok_or_else(|| {
+        let column = |id: ParamId| {
+            let name = id.column(Transform::Log10);
+            chain.column(&name).ok_or_else(|| {
                 InferError::Config(format!("{}: no column '{name}'", chain_path.display()))
             })
         };
         out.posteriors.push(GalaxyPosterior::from_chain(
             &summary.galaxy,
-            column("log10_sigma0_kms")?,
-            column("log10_sigma_m_cm2_g")?,
+            column(ParamId::Sigma0)?,
+            column(ParamId::SigmaM)?,
             prior,
             max_samples,
         )?);
