@@ -3,7 +3,7 @@
 
 use std::path::PathBuf;
 
-use caldera_physics::{BaryonTable, BaryonVelocities, PhysicsError};
+use caldera_physics::{BaryonRows, BaryonTable, BaryonVelocities, PhysicsError};
 use serde::{Deserialize, Serialize};
 
 use crate::error::Location;
@@ -85,37 +85,26 @@ impl GalaxyTable {
         }
     }
 
-    /// The baryonic mass model for mass-to-light ratios Υ_disk and Υ_bulge. Rows at the same
-    /// radius are averaged, since the enclosed mass is a function of radius.
+    /// The table's baryonic rows: the one way a table becomes a baryonic mass model (see
+    /// [`BaryonRows`] for the sign rule, repeated radii and rows at r = 0).
+    pub fn baryon_rows(&self) -> Result<BaryonRows, PhysicsError> {
+        BaryonRows::new(
+            &self.radius_kpc,
+            &self.v_gas_kms,
+            &self.v_disk_kms,
+            self.v_bulge_kms.as_deref(),
+        )
+    }
+
+    /// The baryonic mass model for mass-to-light ratios Υ_disk and Υ_bulge at the table's
+    /// distance.
     pub fn baryons(
         &self,
         upsilon_disk: f64,
         upsilon_bulge: f64,
     ) -> Result<BaryonTable, PhysicsError> {
-        let mut radii: Vec<f64> = Vec::with_capacity(self.len());
-        let mut rows: Vec<BaryonVelocities> = Vec::with_capacity(self.len());
-        let mut counts: Vec<f64> = Vec::with_capacity(self.len());
-        for i in 0..self.len() {
-            let row = self.baryon_velocities(i);
-            match radii.last() {
-                Some(&last) if last >= self.radius_kpc[i] => {
-                    let (Some(sum), Some(count)) = (rows.last_mut(), counts.last_mut()) else {
-                        continue;
-                    };
-                    // Running mean of the duplicated rows.
-                    *count += 1.0;
-                    sum.gas_kms += (row.gas_kms - sum.gas_kms) / *count;
-                    sum.disk_kms += (row.disk_kms - sum.disk_kms) / *count;
-                    sum.bulge_kms += (row.bulge_kms - sum.bulge_kms) / *count;
-                }
-                _ => {
-                    radii.push(self.radius_kpc[i]);
-                    rows.push(row);
-                    counts.push(1.0);
-                }
-            }
-        }
-        BaryonTable::new(&radii, &rows, upsilon_disk, upsilon_bulge)
+        self.baryon_rows()?
+            .mass_model_at(upsilon_disk, upsilon_bulge, 1.0)
     }
 
     /// Refuses a fit with at least as many free parameters as data points (no degrees of

@@ -14,8 +14,8 @@ use caldera_data::GalaxyTable;
 use caldera_data::session::HaloModel;
 use caldera_physics::units::DEFAULT_HALO_AGE_GYR;
 use caldera_physics::{
-    BaryonTable, BuiltHalo, Cosmology, HaloContext, HaloDerived, NoBaryons, ParamId, ParamValues,
-    PhysicsError, Transform, units::G_KPC_KMS2_PER_MSUN,
+    BaryonComponent, BaryonRows, BaryonTable, BuiltHalo, Cosmology, HaloContext, HaloDerived,
+    NoBaryons, ParamId, ParamValues, PhysicsError, Transform,
 };
 use serde::{Deserialize, Serialize};
 
@@ -78,15 +78,6 @@ pub struct FailureSummary {
     pub evaluations: u64,
 }
 
-/// Where the nuisances sit in θ (looked up once in the layout).
-#[derive(Debug, Clone, Copy, PartialEq)]
-struct NuisanceSlots {
-    upsilon_disk: usize,
-    upsilon_bulge: Option<usize>,
-    distance: Option<usize>,
-    inclination: Option<usize>,
-}
-
 /// A galaxy's posterior for one halo model.
 #[derive(Debug)]
 pub struct GalaxyModel {
@@ -95,16 +86,12 @@ pub struct GalaxyModel {
     pub cosmology: Cosmology,
     pub age_gyr: f64,
     layout: Layout,
-    slots: NuisanceSlots,
     radius_kpc: Vec<f64>,
     v_obs_kms: Vec<f64>,
     v_err_kms: Vec<f64>,
-    /// Signed squares V|V| of gas, disk and bulge at each row, (km/s)².
-    gas2: Vec<f64>,
-    disk2: Vec<f64>,
-    bulge2: Vec<f64>,
-    /// Rows grouped by unique radius for the baryonic mass model: (radius, first row, count).
-    unique: Vec<(f64, usize, usize)>,
+    /// The table's baryonic rows (the one baryonic mass model).
+    rows: BaryonRows,
+    has_bulge: bool,
     distance_mpc: Option<(f64, f64)>,
     inclination_deg: Option<(f64, f64)>,
     pub failures: FailureCounts,
@@ -121,10 +108,6 @@ pub struct Evaluation {
     pub v_baryon2_kms2: Vec<f64>,
     pub log_likelihood: f64,
     pub chi2: f64,
-}
-
-fn signed_square(v: f64) -> f64 {
-    v * v.abs()
 }
 
 /// The layout of a galaxy's posterior under `model`: the family's halo parameters (σ/m by its
@@ -246,30 +229,13 @@ impl GalaxyModel {
         age_gyr: Option<f64>,
     ) -> Result<Self, InferError> {
         let (layout, distance_mpc, inclination_deg) = galaxy_layout(table, model, &priors)?;
-        let slot = |id: ParamId| layout.index_of(id);
-        let slots = NuisanceSlots {
-            upsilon_disk: slot(ParamId::UpsilonDisk).ok_or_else(|| {
-                InferError::Config("the layout lacks the disk mass-to-light ratio".into())
-            })?,
-            upsilon_bulge: slot(ParamId::UpsilonBulge),
-            distance: slot(ParamId::Distance),
-            inclination: slot(ParamId::Inclination),
-        };
+        if layout.index_of(ParamId::UpsilonDisk).is_none() {
+            return Err(InferError::Config(
+                "the layout lacks the disk mass-to-light ratio".into(),
+            ));
+        }
         table.check_enough_points(layout.len())?;
-
-        let n = table.len();
-        let mut unique: Vec<(f64, usize, usize)> = Vec::new();
-        for (row, &r) in table.radius_kpc.iter().enumerate() {
-            match unique.last_mut() {
-                Some(last) if last.0 >= r => last.2 += 1,
-                _ => unique.push((r, row, 1)),
-            }
-        }
-        if unique.first().is_some_and(|u| u.0 <= 0.0) {
-            // A point at r = 0 carries no rotation; the baryon model starts at the first r > 0.
-            unique.remove(0);
-        }
-        let bulge = table.v_bulge_kms.clone().unwrap_or_else(|| vec![0.0; n]);
+        let rows = table.baryon_rows()?;
         Ok(Self {
             model,
             priors,
@@ -278,19 +244,11 @@ impl GalaxyModel {
                 .or(table.meta.age_gyr)
                 .unwrap_or(DEFAULT_HALO_AGE_GYR),
             layout,
-            slots,
             radius_kpc: table.radius_kpc.clone(),
             v_obs_kms: table.v_obs_kms.clone(),
             v_err_kms: table.v_err_kms.clone(),
-            gas2: table.v_gas_kms.iter().copied().map(signed_square).collect(),
-            disk2: table
-                .v_disk_kms
-                .iter()
-                .copied()
-                .map(signed_square)
-                .collect(),
-            bulge2: bulge.into_iter().map(signed_square).collect(),
-            unique,
+            rows,
+            has_bulge: table.v_bulge_kms.is_some(),
             distance_mpc,
             inclination_deg,
             failures: FailureCounts::default(),
@@ -361,18 +319,23 @@ impl GalaxyModel {
         }
     }
 
-    fn nuisances(&self, theta: &[f64]) -> (f64, f64, f64, f64) {
-        let upsilon_disk = 10f64.powf(theta[self.slots.upsilon_disk]);
-        let upsilon_bulge = self
-            .slots
-            .upsilon_bulge
-            .map_or(self.priors.upsilon_bulge_median, |k| 10f64.powf(theta[k]));
-        let distance_factor = match (self.slots.distance, self.distance_mpc) {
-            (Some(k), Some((d, _))) => theta[k] / d,
+    /// (Υ_disk, Υ_bulge, distance factor D/D_table, inclination factor sin i_table / sin i) at
+    /// `values`; a nuisance without a value takes its prior median or the table's value.
+    fn nuisances(&self, values: &ParamValues) -> (f64, f64, f64, f64) {
+        let upsilon_disk = values
+            .get(ParamId::UpsilonDisk)
+            .unwrap_or(self.priors.upsilon_disk_median);
+        let upsilon_bulge = values
+            .get(ParamId::UpsilonBulge)
+            .unwrap_or(self.priors.upsilon_bulge_median);
+        let distance_factor = match (values.get(ParamId::Distance), self.distance_mpc) {
+            (Some(distance), Some((d, _))) => distance / d,
             _ => 1.0,
         };
-        let inclination_factor = match (self.slots.inclination, self.inclination_deg) {
-            (Some(k), Some((i, _))) => i.to_radians().sin() / theta[k].to_radians().sin(),
+        let inclination_factor = match (values.get(ParamId::Inclination), self.inclination_deg) {
+            (Some(inclination), Some((i, _))) => {
+                i.to_radians().sin() / inclination.to_radians().sin()
+            }
             _ => 1.0,
         };
         (
@@ -388,38 +351,43 @@ impl GalaxyModel {
         &self,
         theta: &[f64],
     ) -> Result<(Evaluation, [f64; DERIVED_NAMES.len()]), PhysicsError> {
-        self.evaluate_with_halo(theta)
+        self.evaluate_with_halo(&self.layout.values(theta))
             .map(|(evaluation, derived, _)| (evaluation, derived))
     }
 
-    /// [`GalaxyModel::evaluate`], also returning the built halo.
+    /// Evaluates the model at physical `values` (halo parameters and nuisances by
+    /// [`ParamId`]; a nuisance without a value takes its prior median or the table's value),
+    /// also returning the built halo.
     fn evaluate_with_halo(
         &self,
-        theta: &[f64],
+        values: &ParamValues,
     ) -> Result<(Evaluation, [f64; DERIVED_NAMES.len()], BuiltHalo), PhysicsError> {
         let (upsilon_disk, upsilon_bulge, distance_factor, inclination_factor) =
-            self.nuisances(theta);
+            self.nuisances(values);
         let n = self.n_points();
         let radius_kpc: Vec<f64> = self
             .radius_kpc
             .iter()
             .map(|r| r * distance_factor)
             .collect();
-        let v_baryon2_kms2 = self.baryon_v2_rows(upsilon_disk, upsilon_bulge, distance_factor);
+        let v_baryon2_kms2 = self
+            .rows
+            .v2_rows_kms2(upsilon_disk, upsilon_bulge, distance_factor);
         let mut derived = [f64::NAN; DERIVED_NAMES.len()];
         derived[Derived::UpsilonDisk as usize] = upsilon_disk;
-        derived[Derived::UpsilonBulge as usize] =
-            self.slots.upsilon_bulge.map_or(f64::NAN, |_| upsilon_bulge);
+        derived[Derived::UpsilonBulge as usize] = if self.has_bulge {
+            upsilon_bulge
+        } else {
+            f64::NAN
+        };
         derived[Derived::Distance as usize] = self
             .distance_mpc
             .map_or(f64::NAN, |(d, _)| d * distance_factor);
-        derived[Derived::Inclination as usize] =
-            match (self.slots.inclination, self.inclination_deg) {
-                (Some(k), _) => theta[k],
-                (None, Some((i, _))) => i,
-                _ => f64::NAN,
-            };
-        let halo = self.build_halo(theta, distance_factor, &v_baryon2_kms2, &mut derived)?;
+        derived[Derived::Inclination as usize] = values
+            .get(ParamId::Inclination)
+            .or(self.inclination_deg.map(|(i, _)| i))
+            .unwrap_or(f64::NAN);
+        let halo = self.build_halo(values, distance_factor, &v_baryon2_kms2, &mut derived)?;
         let floor2 = self.priors.error_floor_kms * self.priors.error_floor_kms;
         let mut chi2 = 0.0;
         let mut log_norm = 0.0;
@@ -460,71 +428,39 @@ impl GalaxyModel {
         ))
     }
 
-    /// The baryonic enclosed mass for the Jeans equation, from the rows' V_b² at radii rescaled by
-    /// `distance_factor` (rows at one radius averaged).
-    fn baryon_mass_model(
-        &self,
-        distance_factor: f64,
-        v_baryon2_kms2: &[f64],
-    ) -> Result<BaryonTable, PhysicsError> {
-        let (radii, masses): (Vec<f64>, Vec<f64>) = self
-            .unique
-            .iter()
-            .map(|&(r, first, count)| {
-                let mean_v2 =
-                    v_baryon2_kms2[first..first + count].iter().sum::<f64>() / count as f64;
-                let r_scaled = r * distance_factor;
-                (r_scaled, r_scaled * mean_v2 / G_KPC_KMS2_PER_MSUN)
-            })
-            .unzip();
-        BaryonTable::from_signed_mass(radii, masses)
-    }
-
-    /// Signed baryonic V_b² at each row, (km/s)²: gas + Υ_disk·disk + Υ_bulge·bulge, scaled by the
-    /// distance factor (V_b² ∝ D).
-    fn baryon_v2_rows(
-        &self,
-        upsilon_disk: f64,
-        upsilon_bulge: f64,
-        distance_factor: f64,
-    ) -> Vec<f64> {
-        (0..self.n_points())
-            .map(|i| {
-                distance_factor
-                    * (self.gas2[i] + upsilon_disk * self.disk2[i] + upsilon_bulge * self.bulge2[i])
-            })
-            .collect()
-    }
-
     /// The baryonic enclosed mass the Jeans equation sees at the nuisance parameters of `theta`
     /// (its halo coordinates are ignored), e.g. for a halo-first solve at the same Υ, D and i.
     pub fn baryons_at(&self, theta: &[f64]) -> Result<BaryonTable, PhysicsError> {
-        let (upsilon_disk, upsilon_bulge, distance_factor, _) = self.nuisances(theta);
-        let v_baryon2_kms2 = self.baryon_v2_rows(upsilon_disk, upsilon_bulge, distance_factor);
-        self.baryon_mass_model(distance_factor, &v_baryon2_kms2)
+        self.baryons_at_values(&self.layout.values(theta))
     }
 
-    /// Builds the halo at `theta` for data rescaled by `distance_factor` (with baryonic V² per
+    /// The baryonic enclosed mass at the nuisances of `values` (see [`GalaxyModel::evaluate_values`]).
+    pub fn baryons_at_values(&self, values: &ParamValues) -> Result<BaryonTable, PhysicsError> {
+        let (upsilon_disk, upsilon_bulge, distance_factor, _) = self.nuisances(values);
+        self.rows
+            .mass_model_at(upsilon_disk, upsilon_bulge, distance_factor)
+    }
+
+    /// Builds the halo at `values` for data rescaled by `distance_factor` (with baryonic V² per
     /// row `v_baryon2_kms2`), filling the halo's derived quantities into `derived`.
     fn build_halo(
         &self,
-        theta: &[f64],
+        values: &ParamValues,
         distance_factor: f64,
         v_baryon2_kms2: &[f64],
         derived: &mut [f64; DERIVED_NAMES.len()],
     ) -> Result<BuiltHalo, PhysicsError> {
         let family = self.model.family();
-        let values = self.layout.values(theta);
         let built = if family.uses_baryons() {
-            let baryons = self.baryon_mass_model(distance_factor, v_baryon2_kms2)?;
-            family.build(&values, &self.halo_context(&baryons))?
+            let baryons = self.rows.mass_model(distance_factor, v_baryon2_kms2)?;
+            family.build(values, &self.halo_context(&baryons))?
         } else {
             let context = HaloContext {
                 cosmology: self.cosmology,
                 baryons: &NoBaryons,
                 age_gyr: self.age_gyr,
             };
-            family.build(&values, &context)?
+            family.build(values, &context)?
         };
         let d = built.derived;
         let mut put = |slot: Derived, value: Option<f64>| {
@@ -581,44 +517,36 @@ pub struct Components {
     pub parameters: ParamValues,
 }
 
-fn signed_root(v2: f64) -> f64 {
-    v2.signum() * v2.abs().sqrt()
-}
-
 impl GalaxyModel {
     /// The pieces of the model at `theta` for plotting (see [`Components`]).
     pub fn components(&self, theta: &[f64]) -> Result<Components, PhysicsError> {
-        let (evaluation, derived, built) = self.evaluate_with_halo(theta)?;
-        let (upsilon_disk, upsilon_bulge, distance_factor, _) = self.nuisances(theta);
+        self.components_at_values(&self.layout.values(theta))
+    }
+
+    /// Evaluates the model at physical `values`: the halo family's parameters and any of the
+    /// nuisances by [`ParamId`], whether or not the layout samples them (a nuisance without a
+    /// value takes its prior median, or the table's distance and inclination). This is how a
+    /// curve for given parameters is computed outside a fit (`caldera curve --table`, the app).
+    pub fn evaluate_values(
+        &self,
+        values: &ParamValues,
+    ) -> Result<(Evaluation, [f64; DERIVED_NAMES.len()]), PhysicsError> {
+        self.evaluate_with_halo(values)
+            .map(|(evaluation, derived, _)| (evaluation, derived))
+    }
+
+    /// The pieces of the model at physical `values` (see [`GalaxyModel::evaluate_values`]).
+    pub fn components_at_values(&self, values: &ParamValues) -> Result<Components, PhysicsError> {
+        let (evaluation, derived, built) = self.evaluate_with_halo(values)?;
+        let (upsilon_disk, upsilon_bulge, distance_factor, _) = self.nuisances(values);
         let halo = &built.profile;
-        let n = self.n_points();
-        let scaled = |v2: &[f64], factor: f64| -> Vec<f64> {
-            v2.iter()
-                .map(|x| signed_root(distance_factor * factor * x))
-                .collect()
-        };
+        let component =
+            |c: BaryonComponent, upsilon: f64| self.rows.component_kms(c, upsilon, distance_factor);
         let r_max = evaluation.radius_kpc.iter().copied().fold(0.0, f64::max) * 1.05;
         let fine_radius_kpc: Vec<f64> = (1..=200).map(|i| r_max * f64::from(i) / 200.0).collect();
-        // Signed r·V_b² at the data radii, interpolated linearly between them (the table's
-        // enclosed-mass rule: ∝ r³ inside the first radius, constant beyond the last).
-        let radii = &evaluation.radius_kpc;
-        let m: Vec<f64> = radii
-            .iter()
-            .zip(&evaluation.v_baryon2_kms2)
-            .map(|(r, v2)| r * v2)
-            .collect();
-        let baryon_mass = |r: f64| -> f64 {
-            if r <= radii[0] {
-                return m[0] * (r / radii[0]).powi(3);
-            }
-            if r >= radii[n - 1] {
-                return m[n - 1];
-            }
-            let upper = radii.partition_point(|&x| x < r);
-            let lower = upper - 1;
-            let w = (r - radii[lower]) / (radii[upper] - radii[lower]).max(f64::MIN_POSITIVE);
-            m[lower] + w * (m[upper] - m[lower])
-        };
+        let baryons = self
+            .rows
+            .mass_model(distance_factor, &evaluation.v_baryon2_kms2)?;
         let v_halo_fine_kms: Vec<f64> = fine_radius_kpc
             .iter()
             .map(|&r| halo.v_circ_kms(r))
@@ -626,16 +554,15 @@ impl GalaxyModel {
         let v_total_fine_kms = fine_radius_kpc
             .iter()
             .zip(&v_halo_fine_kms)
-            .map(|(&r, vh)| (vh * vh + baryon_mass(r) / r).max(0.0).sqrt())
+            .map(|(&r, vh)| (vh * vh + baryons.v_squared_kms2(r)).max(0.0).sqrt())
             .collect();
         let finite = |x: f64| x.is_finite().then_some(x);
         Ok(Components {
-            v_gas_kms: scaled(&self.gas2, 1.0),
-            v_disk_kms: scaled(&self.disk2, upsilon_disk),
+            v_gas_kms: component(BaryonComponent::Gas, 1.0),
+            v_disk_kms: component(BaryonComponent::Disk, upsilon_disk),
             v_bulge_kms: self
-                .slots
-                .upsilon_bulge
-                .map(|_| scaled(&self.bulge2, upsilon_bulge)),
+                .has_bulge
+                .then(|| component(BaryonComponent::Bulge, upsilon_bulge)),
             radius_kpc: evaluation.radius_kpc,
             v_obs_kms: evaluation.v_obs_kms,
             v_err_kms: evaluation.v_err_kms,
@@ -647,7 +574,7 @@ impl GalaxyModel {
             core_radius_kpc: finite(derived[Derived::CoreRadius as usize]),
             chi2: evaluation.chi2,
             halo: built.derived,
-            parameters: self.layout.values(theta),
+            parameters: *values,
         })
     }
 }

@@ -279,6 +279,165 @@ impl BaryonTable {
     }
 }
 
+/// A galaxy table's baryonic rows — the one way a table becomes a baryonic mass model, used by
+/// the fits, the live curve, `caldera curve --table` and the mock generator alike.
+///
+/// Each row's contribution to V² is signed (V|V|: a negative tabulated velocity is a net outward
+/// pull); at mass-to-light ratios Υ and a distance factor f = D/D_table (radii ∝ D, V_b² ∝ D),
+/// V_b²(row) = f (V_gas|V_gas| + Υ_disk V_disk|V_disk| + Υ_bulge V_bulge|V_bulge|). Rows at one
+/// radius are averaged in V_b² (the enclosed mass is a function of radius); rows at r ≤ 0 carry
+/// no rotation and are left out of the mass model (it grows as r³ inside the first radius).
+#[derive(Debug, Clone, PartialEq)]
+pub struct BaryonRows {
+    /// Signed squares of gas, disk and bulge at each row, (km/s)².
+    gas2: Vec<f64>,
+    disk2: Vec<f64>,
+    bulge2: Vec<f64>,
+    /// Rows grouped by radius: (radius in kpc, first row, count); only radii > 0.
+    unique: Vec<(f64, usize, usize)>,
+}
+
+fn signed_square(v: f64) -> f64 {
+    v * v.abs()
+}
+
+impl BaryonRows {
+    /// The rows of a table sorted by radius (kpc), with gas, disk and optional bulge velocities
+    /// (km/s, disk and bulge at Υ = 1).
+    pub fn new(
+        radius_kpc: &[f64],
+        v_gas_kms: &[f64],
+        v_disk_kms: &[f64],
+        v_bulge_kms: Option<&[f64]>,
+    ) -> Result<Self, PhysicsError> {
+        let n = radius_kpc.len();
+        if v_gas_kms.len() != n
+            || v_disk_kms.len() != n
+            || v_bulge_kms.is_some_and(|b| b.len() != n)
+        {
+            return Err(PhysicsError::InvalidTable(
+                "the baryonic columns and the radii differ in length".into(),
+            ));
+        }
+        let mut unique: Vec<(f64, usize, usize)> = Vec::new();
+        for (row, &r) in radius_kpc.iter().enumerate() {
+            match unique.last_mut() {
+                Some(last) if last.0 >= r => last.2 += 1,
+                _ => unique.push((r, row, 1)),
+            }
+        }
+        if unique.first().is_some_and(|u| u.0 <= 0.0) {
+            unique.remove(0);
+        }
+        if unique.is_empty() {
+            return Err(PhysicsError::InvalidTable(
+                "no row at a positive radius".into(),
+            ));
+        }
+        Ok(Self {
+            gas2: v_gas_kms.iter().copied().map(signed_square).collect(),
+            disk2: v_disk_kms.iter().copied().map(signed_square).collect(),
+            bulge2: v_bulge_kms.map_or_else(
+                || vec![0.0; n],
+                |b| b.iter().copied().map(signed_square).collect(),
+            ),
+            unique,
+        })
+    }
+
+    /// Number of rows.
+    #[must_use]
+    pub fn len(&self) -> usize {
+        self.gas2.len()
+    }
+
+    /// True when there are no rows.
+    #[must_use]
+    pub fn is_empty(&self) -> bool {
+        self.gas2.is_empty()
+    }
+
+    /// Signed V_b² at each row, (km/s)², at Υ's and distance factor `distance_factor`.
+    #[must_use]
+    pub fn v2_rows_kms2(
+        &self,
+        upsilon_disk: f64,
+        upsilon_bulge: f64,
+        distance_factor: f64,
+    ) -> Vec<f64> {
+        (0..self.len())
+            .map(|i| {
+                distance_factor
+                    * (self.gas2[i] + upsilon_disk * self.disk2[i] + upsilon_bulge * self.bulge2[i])
+            })
+            .collect()
+    }
+
+    /// Signed √(f Υ V|V|) of one component at each row (gas: Υ = 1), km/s, for figures.
+    #[must_use]
+    pub fn component_kms(
+        &self,
+        component: BaryonComponent,
+        upsilon: f64,
+        distance_factor: f64,
+    ) -> Vec<f64> {
+        let squares = match component {
+            BaryonComponent::Gas => &self.gas2,
+            BaryonComponent::Disk => &self.disk2,
+            BaryonComponent::Bulge => &self.bulge2,
+        };
+        squares
+            .iter()
+            .map(|x| {
+                let v2 = distance_factor * upsilon * x;
+                v2.signum() * v2.abs().sqrt()
+            })
+            .collect()
+    }
+
+    /// The mass model from per-row V_b² (as [`BaryonRows::v2_rows_kms2`] gives them) at radii
+    /// scaled by `distance_factor`.
+    pub fn mass_model(
+        &self,
+        distance_factor: f64,
+        v2_rows_kms2: &[f64],
+    ) -> Result<BaryonTable, PhysicsError> {
+        let (radii, masses): (Vec<f64>, Vec<f64>) = self
+            .unique
+            .iter()
+            .map(|&(r, first, count)| {
+                let mean_v2 = v2_rows_kms2[first..first + count].iter().sum::<f64>() / count as f64;
+                let r_scaled = r * distance_factor;
+                (r_scaled, r_scaled * mean_v2 / G_KPC_KMS2_PER_MSUN)
+            })
+            .unzip();
+        BaryonTable::from_signed_mass(radii, masses)
+    }
+
+    /// The mass model at Υ's and a distance factor.
+    pub fn mass_model_at(
+        &self,
+        upsilon_disk: f64,
+        upsilon_bulge: f64,
+        distance_factor: f64,
+    ) -> Result<BaryonTable, PhysicsError> {
+        require_non_negative("disk mass-to-light ratio", upsilon_disk)?;
+        require_non_negative("bulge mass-to-light ratio", upsilon_bulge)?;
+        self.mass_model(
+            distance_factor,
+            &self.v2_rows_kms2(upsilon_disk, upsilon_bulge, distance_factor),
+        )
+    }
+}
+
+/// A baryonic component of a table.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum BaryonComponent {
+    Gas,
+    Disk,
+    Bulge,
+}
+
 impl EnclosedMass for BaryonTable {
     fn enclosed_mass_msun(&self, radius_kpc: f64) -> f64 {
         self.signed_mass_msun(radius_kpc).max(0.0)

@@ -35,7 +35,8 @@ mod special;
 pub mod units;
 
 pub use baryons::{
-    BaryonTable, BaryonVelocities, EnclosedMass, ExponentialDisk, Hernquist, NoBaryons,
+    BaryonComponent, BaryonRows, BaryonTable, BaryonVelocities, EnclosedMass, ExponentialDisk,
+    Hernquist, NoBaryons,
 };
 pub use cosmology::Cosmology;
 pub use cross_section::CrossSection;
