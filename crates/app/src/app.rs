@@ -13,7 +13,7 @@ use caldera_data::{
 use caldera_infer::population::{PopulationFit, PopulationSettings, preferred_by_bic};
 use caldera_infer::sampler::RunConfig;
 use caldera_infer::session::Session;
-use caldera_infer::{FitConfig, FitResult};
+use caldera_infer::{FitConfig, FitResult, FitSummary};
 use caldera_report::figures::{RotationCurveFigure, save_figure};
 use caldera_report::tables::{latex_table, results_table};
 use egui::Color32;
@@ -198,7 +198,19 @@ impl CalderaApp {
         self.runtime.live.as_ref()
     }
 
-    /// The message shown when no curve exists for the current values.
+    /// The summary of the finished fit of `galaxy` with `model`, if any.
+    #[must_use]
+    pub fn fit_summary(&self, galaxy: &str, model: HaloModel) -> Option<&FitSummary> {
+        self.session.result(galaxy, model)
+    }
+
+    /// The settings of the selected galaxy (the controls' values).
+    #[must_use]
+    pub fn selected_settings(&self) -> Option<GalaxySettings> {
+        self.current_settings()
+    }
+
+    /// Why there is no live curve, if there is none.
     #[must_use]
     pub fn live_error(&self) -> Option<&str> {
         self.runtime.live_error.as_deref()

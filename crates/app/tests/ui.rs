@@ -134,3 +134,47 @@ fn no_solution_is_said_in_place_and_the_last_curve_kept() {
     let _ = harness.get_by_label_contains("No curve for these values");
     std::fs::remove_dir_all(&export).ok();
 }
+
+/// Fits the selected galaxy with the default model and waits for the worker.
+fn fit_and_wait(harness: &mut Harness<'static, CalderaApp>) {
+    harness.get_by_role_and_label(Role::Button, "Fit").click();
+    harness.run();
+    let deadline = Instant::now() + Duration::from_secs(300);
+    while harness.state().fitting() && Instant::now() < deadline {
+        std::thread::sleep(Duration::from_millis(20));
+        harness.step();
+    }
+    assert!(!harness.state().fitting(), "the fit did not finish");
+    harness.run();
+}
+
+#[test]
+fn use_best_fit_reproduces_the_fit() {
+    // Use best fit loads the fit's best sample into the controls — the SIDM core's branch
+    // included — so the live curve is the fitted one and its χ² is the fit's best χ². On a dwarf
+    // and a spiral (with bulge, distance and inclination sampled).
+    let (options, export) = options("bestfit");
+    let mut harness = harness(options);
+    harness.run();
+    for galaxy in ["Kiln D02", "Kiln S02"] {
+        harness.get_by_label(galaxy).click();
+        harness.run();
+        fit_and_wait(&mut harness);
+        harness
+            .get_by_role_and_label(Role::Button, "Use best fit")
+            .click();
+        harness.run();
+        let model = harness.state().selected_settings().expect("settings").model;
+        let fitted = harness
+            .state()
+            .fit_summary(galaxy, model)
+            .expect("a fit summary")
+            .chi2;
+        let live = harness.state().live_curve().expect("a live curve").chi2;
+        assert!(
+            (live - fitted).abs() <= 1e-6 * fitted,
+            "{galaxy}: live χ² {live} vs fitted χ² {fitted}"
+        );
+    }
+    std::fs::remove_dir_all(&export).ok();
+}

@@ -6,9 +6,12 @@ use std::process::ExitCode;
 
 use anyhow::{Context, bail};
 use caldera_data::{GalaxyTable, read_table};
+use caldera_infer::model::GalaxyModel;
+use caldera_infer::priors::Priors;
 use caldera_physics::{
-    BaryonTable, Branch, Burkert, Cosmology, CrossSection, EnclosedMass, HaloProfile, Nfw,
-    NoBaryons, PseudoIsothermal, SidmSetup, sidm, units::DEFAULT_HALO_AGE_GYR,
+    BaryonTable, Branch, Burkert, Cosmology, CrossSection, Einasto, EnclosedMass, HaloModel,
+    HaloProfile, Nfw, NoBaryons, ParamId, ParamValues, PseudoIsothermal, SidmSetup, sidm,
+    units::{DEFAULT_HALO_AGE_GYR, G_KPC_KMS2_PER_MSUN},
 };
 use clap::{Args, Subcommand};
 use serde_json::{Map, Value, json};
@@ -22,7 +25,9 @@ Examples:
   caldera curve sidm --v200 60 --c200 12 --cross-section 2 --age 10 --radii 1,2,5
   caldera curve nfw --v200 60 --c200 12 --table galaxy.csv --upsilon-disk 0.5
   caldera curve burkert --rho0 3e7 --r0 2 --radii 1,2,4
-  caldera curve pseudo-iso --rho0 5e7 --rc 1.5 --radii 1,2,4";
+  caldera curve pseudo-iso --rho0 5e7 --rc 1.5 --radii 1,2,4
+  caldera curve einasto --v200 60 --c200 12 --alpha 0.17 --radii 1,2,4
+  caldera curve nfw --v200 60 --c200 12 --table galaxy.csv --distance 7.9 --inclination 55";
 
 /// Radii used when neither --radii nor --table is given, kpc.
 const DEFAULT_RADII_KPC: [f64; 10] = [0.25, 0.5, 1.0, 2.0, 3.0, 5.0, 8.0, 12.0, 20.0, 30.0];
@@ -47,6 +52,8 @@ pub enum CurveModel {
     /// Pseudo-isothermal cored halo from its central density and core radius.
     #[command(name = "pseudo-iso")]
     PseudoIso(PseudoIsoArgs),
+    /// Einasto halo from V200, c200 = r200/r₋₂ and the shape α.
+    Einasto(EinastoArgs),
 }
 
 /// Radii, baryons and output options shared by every model.
@@ -67,6 +74,13 @@ pub struct CommonArgs {
     /// Bulge mass-to-light ratio applied to the table's bulge column.
     #[arg(long, default_value_t = 0.7)]
     pub upsilon_bulge: f64,
+    /// Distance, Mpc, instead of the table's: radii scale ∝ D and baryonic V² ∝ D.
+    #[arg(long, value_name = "MPC", requires = "table")]
+    pub distance: Option<f64>,
+    /// Inclination, degrees, instead of the table's: observed velocities and errors scale by
+    /// sin(i_table)/sin(i).
+    #[arg(long, value_name = "DEG", requires = "table")]
+    pub inclination: Option<f64>,
     /// Hubble constant for V200/c200, km/s/Mpc.
     #[arg(long, default_value_t = 70.0, value_name = "KM/S/MPC")]
     pub h0: f64,
@@ -128,6 +142,21 @@ pub struct BurkertArgs {
 }
 
 #[derive(Debug, Args)]
+pub struct EinastoArgs {
+    /// V200, km/s.
+    #[arg(long, value_name = "KM/S")]
+    pub v200: f64,
+    /// Concentration c200 = r200 / r₋₂.
+    #[arg(long)]
+    pub c200: f64,
+    /// Shape parameter α.
+    #[arg(long)]
+    pub alpha: f64,
+    #[command(flatten)]
+    pub common: CommonArgs,
+}
+
+#[derive(Debug, Args)]
 pub struct PseudoIsoArgs {
     /// Central density ρ0, Msun/kpc³.
     #[arg(long, value_name = "MSUN/KPC3")]
@@ -139,15 +168,22 @@ pub struct PseudoIsoArgs {
     pub common: CommonArgs,
 }
 
-/// The table (if any), its baryons, and the radii to evaluate.
+/// The table (if any), its posterior model and baryons, and the radii to evaluate.
 struct Inputs {
-    table: Option<GalaxyTable>,
+    table: Option<(GalaxyTable, GalaxyModel)>,
+    /// The nuisances set on the command line (Υ's, distance, inclination).
+    nuisances: ParamValues,
     baryons: Option<BaryonTable>,
     radii_kpc: Vec<f64>,
     cosmology: Cosmology,
 }
 
-fn load_inputs(common: &CommonArgs, verbosity: Verbosity) -> anyhow::Result<Inputs> {
+fn load_inputs(
+    common: &CommonArgs,
+    model: HaloModel,
+    age_gyr: f64,
+    verbosity: Verbosity,
+) -> anyhow::Result<Inputs> {
     let cosmology = Cosmology::with_hubble(common.h0).context("invalid --h0")?;
     let table = match &common.table {
         None => None,
@@ -161,15 +197,46 @@ fn load_inputs(common: &CommonArgs, verbosity: Verbosity) -> anyhow::Result<Inpu
             Some(table)
         }
     };
+    let mut nuisances = ParamValues::from_pairs([
+        (ParamId::UpsilonDisk, common.upsilon_disk),
+        (ParamId::UpsilonBulge, common.upsilon_bulge),
+    ]);
+    if let Some(d) = common.distance {
+        nuisances.set(ParamId::Distance, d);
+    }
+    if let Some(i) = common.inclination {
+        nuisances.set(ParamId::Inclination, i);
+    }
+    // With a table, the same galaxy model the fits use: its baryonic mass model at these
+    // nuisances, and the χ² of the curve against the (rescaled) data.
+    let table = match table {
+        None => None,
+        Some(t) => {
+            if common.distance.is_some() && t.meta.distance_mpc.is_none_or(|d| d <= 0.0) {
+                bail!("--distance needs a table that gives its distance (distance_mpc)");
+            }
+            if common.inclination.is_some() && t.meta.inclination_deg.is_none_or(|i| i <= 0.0) {
+                bail!("--inclination needs a table that gives its inclination (inclination_deg)");
+            }
+            let model = GalaxyModel::new(&t, model, Priors::default(), cosmology, Some(age_gyr))
+                .context("cannot set up the galaxy model for the table")?;
+            Some((t, model))
+        }
+    };
     let baryons = table
         .as_ref()
-        .map(|t| t.baryons(common.upsilon_disk, common.upsilon_bulge))
+        .map(|(_, m)| m.baryons_at_values(&nuisances))
         .transpose()
         .context("cannot build the baryonic mass model from the table")?;
     let radii_kpc = if !common.radii.is_empty() {
         common.radii.clone()
-    } else if let Some(t) = &table {
-        t.radius_kpc.clone()
+    } else if let Some((t, _)) = &table {
+        // The table's radii at the chosen distance (r ∝ D).
+        let factor = match (common.distance, t.meta.distance_mpc) {
+            (Some(d), Some(table_d)) => d / table_d,
+            _ => 1.0,
+        };
+        t.radius_kpc.iter().map(|r| r * factor).collect()
     } else {
         DEFAULT_RADII_KPC.to_vec()
     };
@@ -178,6 +245,7 @@ fn load_inputs(common: &CommonArgs, verbosity: Verbosity) -> anyhow::Result<Inpu
     }
     Ok(Inputs {
         table,
+        nuisances,
         baryons,
         radii_kpc,
         cosmology,
@@ -186,17 +254,27 @@ fn load_inputs(common: &CommonArgs, verbosity: Verbosity) -> anyhow::Result<Inpu
 
 /// Runs `caldera curve`.
 pub(crate) fn run(args: &CurveArgs, verbosity: Verbosity) -> anyhow::Result<ExitCode> {
-    let (common, model_name) = match &args.model {
-        CurveModel::Sidm(a) => (&a.common, "sidm"),
-        CurveModel::Nfw(a) => (&a.common, "nfw"),
-        CurveModel::Burkert(a) => (&a.common, "burkert"),
-        CurveModel::PseudoIso(a) => (&a.common, "pseudo-iso"),
+    let (common, model, age_gyr) = match &args.model {
+        CurveModel::Sidm(a) => (&a.common, HaloModel::Sidm, a.age),
+        CurveModel::Nfw(a) => (&a.common, HaloModel::Nfw, DEFAULT_HALO_AGE_GYR),
+        CurveModel::Burkert(a) => (&a.common, HaloModel::Burkert, DEFAULT_HALO_AGE_GYR),
+        CurveModel::PseudoIso(a) => (&a.common, HaloModel::PseudoIsothermal, DEFAULT_HALO_AGE_GYR),
+        CurveModel::Einasto(a) => (&a.common, HaloModel::Einasto, DEFAULT_HALO_AGE_GYR),
     };
-    let inputs = load_inputs(common, verbosity)?;
+    let inputs = load_inputs(common, model, age_gyr, verbosity)?;
     let mut fields = Map::new();
-    fields.insert("model".into(), json!(model_name));
-    let halo: Box<dyn HaloProfile> = match &args.model {
-        CurveModel::Sidm(a) => Box::new(build_sidm(a, &inputs, &mut fields)?),
+    fields.insert("model".into(), json!(model.name()));
+    // The halo's parameters by ParamId (SIDM: the core, solved halo-first when asked).
+    let (halo, parameters): (Box<dyn HaloProfile>, ParamValues) = match &args.model {
+        CurveModel::Sidm(a) => {
+            let halo = build_sidm(a, &inputs, &mut fields)?;
+            let parameters = ParamValues::from_pairs([
+                (ParamId::Rho0, halo.rho0_msun_kpc3()),
+                (ParamId::Sigma0, halo.sigma0_kms()),
+                (ParamId::SigmaM, a.cross_section),
+            ]);
+            (Box::new(halo), parameters)
+        }
         CurveModel::Nfw(a) => {
             let nfw = Nfw::from_v200_c200(a.v200, a.c200, &inputs.cosmology)
                 .context("cannot build the NFW halo")?;
@@ -207,20 +285,50 @@ pub(crate) fn run(args: &CurveArgs, verbosity: Verbosity) -> anyhow::Result<Exit
             fields.insert("c200".into(), json!(virial.c200));
             fields.insert("r200_kpc".into(), json!(virial.r200_kpc));
             fields.insert("m200_msun".into(), json!(virial.m200_msun));
-            Box::new(nfw)
+            let parameters =
+                ParamValues::from_pairs([(ParamId::V200, a.v200), (ParamId::C200, a.c200)]);
+            (Box::new(nfw), parameters)
         }
         CurveModel::Burkert(a) => {
             fields.insert("rho0_msun_kpc3".into(), json!(a.rho0));
             fields.insert("r0_kpc".into(), json!(a.r0));
-            Box::new(Burkert::new(a.rho0, a.r0).context("cannot build the Burkert halo")?)
+            let halo = Burkert::new(a.rho0, a.r0).context("cannot build the Burkert halo")?;
+            let parameters =
+                ParamValues::from_pairs([(ParamId::Rho0, a.rho0), (ParamId::R0, a.r0)]);
+            (Box::new(halo), parameters)
         }
         CurveModel::PseudoIso(a) => {
             fields.insert("rho0_msun_kpc3".into(), json!(a.rho0));
             fields.insert("core_radius_kpc".into(), json!(a.rc));
-            Box::new(
-                PseudoIsothermal::new(a.rho0, a.rc)
-                    .context("cannot build the pseudo-isothermal halo")?,
-            )
+            let halo = PseudoIsothermal::new(a.rho0, a.rc)
+                .context("cannot build the pseudo-isothermal halo")?;
+            let parameters =
+                ParamValues::from_pairs([(ParamId::Rho0, a.rho0), (ParamId::Rc, a.rc)]);
+            (Box::new(halo), parameters)
+        }
+        CurveModel::Einasto(a) => {
+            let halo = Einasto::from_v200_c200(a.v200, a.c200, a.alpha, &inputs.cosmology)
+                .context("cannot build the Einasto halo")?;
+            let r200 = a.c200 * halo.r_minus2_kpc;
+            fields.insert("v200_kms".into(), json!(a.v200));
+            fields.insert("c200".into(), json!(a.c200));
+            fields.insert("alpha".into(), json!(a.alpha));
+            fields.insert(
+                "rho_minus2_msun_kpc3".into(),
+                json!(halo.rho_minus2_msun_kpc3),
+            );
+            fields.insert("r_minus2_kpc".into(), json!(halo.r_minus2_kpc));
+            fields.insert("r200_kpc".into(), json!(r200));
+            fields.insert(
+                "m200_msun".into(),
+                json!(a.v200 * a.v200 * r200 / G_KPC_KMS2_PER_MSUN),
+            );
+            let parameters = ParamValues::from_pairs([
+                (ParamId::V200, a.v200),
+                (ParamId::C200, a.c200),
+                (ParamId::EinastoAlpha, a.alpha),
+            ]);
+            (Box::new(halo), parameters)
         }
     };
     let radii = &inputs.radii_kpc;
@@ -228,7 +336,22 @@ pub(crate) fn run(args: &CurveArgs, verbosity: Verbosity) -> anyhow::Result<Exit
     fields.insert("radii_kpc".into(), json!(radii));
     fields.insert("v_halo_kms".into(), json!(v_halo));
     let mut baryon_columns = None;
-    if let (Some(table), Some(baryons)) = (&inputs.table, &inputs.baryons) {
+    if let (Some((table, galaxy)), Some(baryons)) = (&inputs.table, &inputs.baryons) {
+        let mut values = inputs.nuisances;
+        for (id, value) in parameters.iter() {
+            values.set(id, value);
+        }
+        let (evaluation, _) = galaxy
+            .evaluate_values(&values)
+            .context("cannot evaluate the model against the table")?;
+        fields.insert("chi2".into(), json!(evaluation.chi2));
+        fields.insert("n_points".into(), json!(evaluation.radius_kpc.len()));
+        if let Some(d) = common.distance.or(table.meta.distance_mpc) {
+            fields.insert("distance_mpc".into(), json!(d));
+        }
+        if let Some(i) = common.inclination.or(table.meta.inclination_deg) {
+            fields.insert("inclination_deg".into(), json!(i));
+        }
         // Signed square roots: a negative V_b² (net outward pull) shows as a negative velocity.
         let v2: Vec<f64> = radii.iter().map(|&r| baryons.v_squared_kms2(r)).collect();
         let v_baryon: Vec<f64> = v2.iter().map(|v| v.signum() * v.abs().sqrt()).collect();
@@ -323,8 +446,11 @@ fn text_report(
     v_halo: &[f64],
     baryons: Option<&(Vec<f64>, Vec<f64>)>,
 ) -> String {
-    const LABELS: [(&str, &str); 19] = [
+    const LABELS: [(&str, &str); 26] = [
         ("model", "model"),
+        ("chi2", "chi2 against the table"),
+        ("distance_mpc", "distance [Mpc]"),
+        ("inclination_deg", "inclination [deg]"),
         ("parameterisation", "parameterisation"),
         ("galaxy", "galaxy"),
         ("cross_section_cm2_g", "sigma/m [cm2/g]"),
@@ -342,6 +468,10 @@ fn text_report(
         ("v200_kms", "V200 [km/s]"),
         ("c200", "c200"),
         ("m200_msun", "M200 [Msun]"),
+        ("alpha", "Einasto alpha"),
+        ("rho_minus2_msun_kpc3", "rho_-2 [Msun/kpc3]"),
+        ("r_minus2_kpc", "r_-2 [kpc]"),
+        ("r200_kpc", "r200 [kpc]"),
         ("upsilon_disk", "Upsilon disk, bulge"),
     ];
     let mut out = String::new();

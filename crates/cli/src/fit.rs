@@ -39,7 +39,7 @@ pub enum SigmaScale {
 pub struct FitArgs {
     /// A galaxy table, or a catalogue folder (then --out is needed).
     pub path: PathBuf,
-    /// Halo models, comma-separated: sidm, nfw, burkert, pseudo-iso.
+    /// Halo models, comma-separated: sidm, nfw, burkert, pseudo-iso, einasto.
     #[arg(
         long,
         alias = "model",
@@ -104,6 +104,9 @@ pub struct FitSettings {
     /// Run until the chain is longer than this many autocorrelation times.
     #[arg(long, default_value_t = 50.0)]
     pub tau_factor: f64,
+    /// Hold the Einasto shape α at this value (default: sample it, log-uniform on [0.05, 1]).
+    #[arg(long, value_name = "ALPHA")]
+    pub einasto_alpha: Option<f64>,
 }
 
 impl FitSettings {
@@ -125,6 +128,7 @@ impl FitSettings {
             vary_distance: !self.fixed_distance,
             vary_inclination: !self.fixed_inclination,
             error_floor_kms: self.error_floor,
+            einasto_alpha_fixed: self.einasto_alpha,
             ..Priors::default()
         };
         Ok(FitConfig {

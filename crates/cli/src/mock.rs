@@ -32,6 +32,8 @@ pub enum MockHaloKind {
     Burkert,
     /// Pseudo-isothermal (--rho0, --rc).
     PseudoIso,
+    /// Einasto (--v200, --c200, --alpha).
+    Einasto,
 }
 
 /// Arguments of `caldera mock`.
@@ -61,6 +63,9 @@ pub struct MockArgs {
     /// Pseudo-isothermal core radius, kpc.
     #[arg(long, value_name = "KPC")]
     pub rc: Option<f64>,
+    /// Einasto shape α.
+    #[arg(long)]
+    pub alpha: Option<f64>,
     /// σ/m for SIDM halos, cm²/g.
     #[arg(long, value_name = "CM2/G")]
     pub cross_section: Option<f64>,
@@ -187,6 +192,11 @@ impl MockArgs {
             MockHaloKind::PseudoIso => MockHalo::PseudoIsothermal {
                 rho0_msun_kpc3: need(self.rho0, "--rho0", "pseudo-iso")?,
                 core_radius_kpc: need(self.rc, "--rc", "pseudo-iso")?,
+            },
+            MockHaloKind::Einasto => MockHalo::Einasto {
+                v200_kms: need(self.v200, "--v200", "einasto")?,
+                c200: need(self.c200, "--c200", "einasto")?,
+                alpha: need(self.alpha, "--alpha", "einasto")?,
             },
         };
         let disk = |mass: f64, scale: f64| {

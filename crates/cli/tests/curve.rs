@@ -200,3 +200,90 @@ fn failures_exit_non_zero_with_one_line() {
     let (code, _, _) = caldera(&["curve", "nfw", "--v200", "x", "--c200", "3"]);
     assert_eq!(code, 2);
 }
+
+/// The demo tables, sorted.
+fn demo_tables() -> Vec<std::path::PathBuf> {
+    let folder = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("../../demo_galaxies");
+    let mut tables: Vec<_> = std::fs::read_dir(&folder)
+        .expect("the demo catalogue")
+        .filter_map(Result::ok)
+        .map(|e| e.path())
+        .filter(|p| p.extension().is_some_and(|e| e == "ecsv"))
+        .collect();
+    tables.sort();
+    tables
+}
+
+/// The `caldera curve` arguments that describe a fit's best sample.
+fn curve_arguments(summary: &Value, table: &str) -> Vec<String> {
+    let best = &summary["best_fit"];
+    let value = |key: &str| best[key].as_f64().map(|v| v.to_string());
+    let model = summary["model"].as_str().expect("model").to_string();
+    let flags: &[(&str, &str)] = match model.as_str() {
+        "sidm" => &[
+            ("--rho0", "rho0_msun_kpc3"),
+            ("--sigma0", "sigma0_kms"),
+            ("--cross-section", "sigma_m_cm2_g"),
+        ],
+        "nfw" => &[("--v200", "v200_kms"), ("--c200", "c200")],
+        "burkert" => &[("--rho0", "rho0_msun_kpc3"), ("--r0", "r0_kpc")],
+        "pseudo-iso" => &[("--rho0", "rho0_msun_kpc3"), ("--rc", "rc_kpc")],
+        "einasto" => &[
+            ("--v200", "v200_kms"),
+            ("--c200", "c200"),
+            ("--alpha", "einasto_alpha"),
+        ],
+        other => panic!("no curve flags for model {other}"),
+    };
+    let mut args = vec!["curve".to_string(), model.clone()];
+    for (flag, key) in flags.iter().chain(&[
+        ("--upsilon-disk", "upsilon_disk"),
+        ("--upsilon-bulge", "upsilon_bulge"),
+        ("--distance", "distance_mpc"),
+        ("--inclination", "inclination_deg"),
+    ]) {
+        if let Some(v) = value(key) {
+            args.extend([flag.to_string(), v]);
+        }
+    }
+    if model == "sidm" {
+        args.extend(["--age".into(), summary["age_gyr"].to_string()]);
+    }
+    args.extend(["--table".into(), table.into(), "--json".into()]);
+    args
+}
+
+#[test]
+fn curve_reproduces_every_demo_fit_chi2() {
+    // One baryonic mass model and one forward model: `caldera curve` at a fit's best-fitting
+    // parameters (halo, Υ's, distance, inclination, age) gives that fit's χ² to 1e-9 relative,
+    // on every demo galaxy and every halo model. Short chains suffice: the check is about the
+    // best sample's χ², not convergence.
+    let tables = demo_tables();
+    assert_eq!(tables.len(), 16);
+    for table in &tables {
+        let path = table.to_str().expect("a UTF-8 path");
+        for model in ["sidm", "nfw", "burkert", "pseudo-iso", "einasto"] {
+            let fit = json(&[
+                "--quiet",
+                "fit",
+                path,
+                "--model",
+                model,
+                "--max-steps",
+                "60",
+                "--walkers",
+                "12",
+                "--json",
+            ]);
+            let args = curve_arguments(&fit, path);
+            let refs: Vec<&str> = args.iter().map(String::as_str).collect();
+            let curve = json(&refs);
+            let (expected, got) = (number(&fit, "chi2"), number(&curve, "chi2"));
+            assert!(
+                (got - expected).abs() <= 1e-9 * expected,
+                "{path} {model}: curve chi2 {got} vs fit chi2 {expected} ({args:?})"
+            );
+        }
+    }
+}

@@ -7,8 +7,9 @@
 //! velocity is V_true + σ_i · N(0, 1).
 
 use caldera_physics::{
-    Branch, Burkert, Cosmology, CrossSection, ExponentialDisk, HaloProfile, Hernquist, Nfw,
-    PhysicsError, PseudoIsothermal, SidmSetup, SidmSummary, VirialQuantities, sidm,
+    Branch, Burkert, Cosmology, CrossSection, Einasto, ExponentialDisk, HaloProfile, Hernquist,
+    Nfw, PhysicsError, PseudoIsothermal, SidmSetup, SidmSummary, VirialQuantities, sidm,
+    units::G_KPC_KMS2_PER_MSUN,
 };
 use rand::SeedableRng;
 use rand_distr::{Distribution, StandardNormal};
@@ -38,6 +39,12 @@ pub enum MockHalo {
         rho0_msun_kpc3: f64,
         sigma0_kms: f64,
         sigma_m_cm2_g: f64,
+    },
+    /// Einasto (1965) from V200, c200 = r200/r₋₂ and the shape α.
+    Einasto {
+        v200_kms: f64,
+        c200: f64,
+        alpha: f64,
     },
     /// SIDM from the outer NFW halo (V200, c200); `branch` 0 is the lowest-density core.
     SidmHaloFirst {
@@ -263,6 +270,21 @@ pub fn generate(spec: &MockSpec) -> Result<(GalaxyTable, MockTruth), MockError> 
             None,
             None,
         ),
+        MockHalo::Einasto {
+            v200_kms,
+            c200,
+            alpha,
+        } => {
+            let halo = Einasto::from_v200_c200(v200_kms, c200, alpha, &cosmology)?;
+            let r200_kpc = c200 * halo.r_minus2_kpc;
+            let virial = VirialQuantities {
+                v200_kms,
+                c200,
+                r200_kpc,
+                m200_msun: v200_kms * v200_kms * r200_kpc / G_KPC_KMS2_PER_MSUN,
+            };
+            (Box::new(halo), Some(virial), None)
+        }
         MockHalo::SidmCoreFirst {
             rho0_msun_kpc3,
             sigma0_kms,
@@ -473,5 +495,26 @@ mod tests {
             ..dwarf_spec()
         };
         assert!(matches!(generate(&no_core), Err(MockError::Model(_))));
+    }
+
+    #[test]
+    fn einasto_mocks_carry_their_halo() {
+        let spec = MockSpec {
+            halo: MockHalo::Einasto {
+                v200_kms: 70.0,
+                c200: 10.0,
+                alpha: 0.2,
+            },
+            ..dwarf_spec()
+        };
+        let (table, truth) = generate(&spec).expect("an Einasto mock");
+        let cosmology = Cosmology::with_hubble(spec.hubble_kms_mpc).expect("cosmology");
+        let halo = Einasto::from_v200_c200(70.0, 10.0, 0.2, &cosmology).expect("halo");
+        for (r, v) in table.radius_kpc.iter().zip(&truth.v_halo_kms) {
+            assert!((halo.v_circ_kms(*r) - v).abs() <= 1e-12 * v);
+        }
+        let virial = truth.virial.expect("virial quantities");
+        assert!((virial.v200_kms - 70.0).abs() < 1e-12);
+        assert!((virial.r200_kpc - 10.0 * halo.r_minus2_kpc).abs() < 1e-9);
     }
 }

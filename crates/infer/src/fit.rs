@@ -127,6 +127,7 @@ pub fn fit_galaxy<O: Observer>(
         config.cosmology,
         config.age_gyr,
     )?;
+    table.check_enough_points(posterior.dim())?;
     let dim = posterior.dim();
     let map = maximum_a_posteriori(&posterior, config.map_starts, config.seed)?;
 

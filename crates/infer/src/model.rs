@@ -234,7 +234,6 @@ impl GalaxyModel {
                 "the layout lacks the disk mass-to-light ratio".into(),
             ));
         }
-        table.check_enough_points(layout.len())?;
         let rows = table.baryon_rows()?;
         Ok(Self {
             model,
