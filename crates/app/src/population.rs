@@ -10,6 +10,7 @@ use caldera_infer::population::{
 };
 use caldera_infer::sampler::Silent;
 use caldera_physics::CrossSection;
+use caldera_physics::cross_section::dispersion_from_mean_relative_speed_kms;
 use caldera_physics::units::BARN_PER_GEV_PER_CM2_PER_G;
 use egui::RichText;
 
@@ -23,50 +24,24 @@ pub struct ParticleModel {
     pub log10_values: Vec<f64>,
 }
 
-/// (label with unit, log10 lower, log10 upper, log10 default) of each particle parameter.
-type ParticleSpec = (&'static str, f64, f64, f64);
-
-fn particle_specs(kind: VelocityModel) -> &'static [ParticleSpec] {
-    match kind {
-        VelocityModel::Constant => &[("σ/m [cm²/g]", -2.0, 2.0, 0.0)],
-        VelocityModel::FallOff => &[
-            ("σ0/m [cm²/g]", -1.0, 3.0, 1.0),
-            ("w [km/s]", 0.5, 4.0, 2.3),
-        ],
-        VelocityModel::Yukawa => &[
-            ("m_χ [GeV]", -1.0, 3.0, 1.0),
-            ("m_φ [MeV]", -2.0, 3.0, 0.7),
-            ("α", -9.0, -1.0, -3.2),
-        ],
-        VelocityModel::Resonance => &[
-            ("m_χ [GeV]", -1.0, 3.0, 1.3),
-            ("δ", -10.0, -5.0, -8.0),
-            ("γ", -7.0, -1.0, -4.0),
-            ("background [cm²/g]", -3.0, 2.0, -0.5),
-        ],
-    }
-}
-
 impl ParticleModel {
     /// The model of this kind at its default parameters.
     #[must_use]
     pub fn new(kind: VelocityModel) -> Self {
         Self {
             kind,
-            log10_values: particle_specs(kind).iter().map(|s| s.3).collect(),
+            log10_values: kind
+                .parameters()
+                .iter()
+                .map(|p| p.default.log10())
+                .collect(),
         }
     }
 
     /// The cross-section, or why the parameters are refused.
     pub fn cross_section(&self) -> Result<CrossSection, String> {
-        let p = |k: usize| 10f64.powf(self.log10_values.get(k).copied().unwrap_or(f64::NAN));
-        match self.kind {
-            VelocityModel::Constant => CrossSection::constant(p(0)),
-            VelocityModel::FallOff => CrossSection::fall_off(p(0), p(1)),
-            VelocityModel::Yukawa => CrossSection::yukawa(p(0), p(1), p(2)),
-            VelocityModel::Resonance => CrossSection::resonance(p(0), p(1), p(2), p(3)),
-        }
-        .map_err(|e| e.to_string())
+        let values: Vec<f64> = self.log10_values.iter().map(|x| 10f64.powf(*x)).collect();
+        self.kind.build(&values).map_err(|e| e.to_string())
     }
 }
 
@@ -128,7 +103,7 @@ pub fn log_curves(cross_section: &CrossSection) -> (Vec<[f64; 2]>, Vec<[f64; 2]>
     let mut unaveraged = Vec::new();
     let mut averaged = Vec::new();
     for v in curve_speeds() {
-        let sigma0 = v * std::f64::consts::PI.sqrt() / 4.0;
+        let sigma0 = dispersion_from_mean_relative_speed_kms(v);
         let (s, e) = (
             cross_section.sigma_m_cm2_g(v),
             effective_sigma_m_cm2_g(cross_section, sigma0),
@@ -226,12 +201,13 @@ impl CalderaApp {
                     }
                 }
             });
-        for (k, &(label, lower, upper, _)) in particle_specs(particle.kind).iter().enumerate() {
+        for (k, spec) in particle.kind.parameters().iter().enumerate() {
+            let (lower, upper) = spec.log10_bounds;
             let mut value = 10f64.powf(particle.log10_values[k]);
             ui.add(
                 egui::Slider::new(&mut value, 10f64.powf(lower)..=10f64.powf(upper))
                     .logarithmic(true)
-                    .text(label),
+                    .text(spec.label()),
             );
             particle.log10_values[k] = value.log10();
         }
@@ -243,7 +219,7 @@ impl CalderaApp {
                     "σ/m at v = {at:.0} km/s: {s:.3} cm²/g = {:.3} barn/GeV",
                     s * BARN_PER_GEV_PER_CM2_PER_G
                 ));
-                let sigma0 = at * std::f64::consts::PI.sqrt() / 4.0;
+                let sigma0 = dispersion_from_mean_relative_speed_kms(at);
                 ui.label(format!(
                     "<σv>/m at <v_rel> = {at:.0} km/s: {:.4} cm²/g·km/s",
                     cross_section.sigma_v_over_m_cm2_g_kms(sigma0)

@@ -98,7 +98,7 @@ fn load_drag_fit_and_export() {
         .set_value_accesskit(1e-4);
     harness.run();
     assert_ne!(&before, harness.state().particle());
-    assert!((harness.state().particle().log10_values[2] + 4.0).abs() < 1e-6);
+    assert!((harness.state().particle().log10_values[0] + 4.0).abs() < 1e-6);
     harness
         .get_by_role_and_label(Role::Button, "Fit population models")
         .click();

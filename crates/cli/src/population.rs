@@ -16,8 +16,9 @@ use caldera_infer::population::{
 use caldera_infer::sampler::Silent;
 use caldera_infer::session::Session;
 use caldera_infer::summary::Interval;
-use caldera_physics::CrossSection;
+use caldera_physics::cross_section::dispersion_from_mean_relative_speed_kms;
 use caldera_physics::units::BARN_PER_GEV_PER_CM2_PER_G;
+use caldera_physics::{CrossSection, CrossSectionKind};
 use caldera_report::figures::{PopulationCurve, PopulationFigure, PopulationPoint, save_figure};
 use clap::Args;
 use serde::Serialize;
@@ -143,40 +144,32 @@ pub(crate) fn parse_particle(spec: &str) -> anyhow::Result<CrossSection> {
             .with_context(|| format!("particle model '{spec}': '{value}' is not a number"))?;
         values.insert(key.trim().to_string(), number);
     }
-    let wanted: &[&str] = match kind {
-        "constant" => &["sigma_m"],
-        "fall-off" => &["sigma0_m", "w"],
-        "yukawa" => &["m_chi", "m_phi", "alpha"],
-        "resonance" => &["m_chi", "delta", "gamma", "background"],
-        other => bail!(
-            "particle model '{spec}': unknown kind '{other}' (constant, fall-off, yukawa, resonance)"
-        ),
+    let kinds = || CrossSectionKind::ALL.map(CrossSectionKind::name).join(", ");
+    let Some(kind) = CrossSectionKind::from_name(kind) else {
+        bail!(
+            "particle model '{spec}': unknown kind '{kind}' ({})",
+            kinds()
+        );
     };
+    let wanted: Vec<&str> = kind.parameters().iter().map(|p| p.key).collect();
     if let Some(extra) = values.keys().find(|k| !wanted.contains(&k.as_str())) {
         bail!(
-            "particle model '{spec}': unknown parameter '{extra}'; {kind} takes {}",
+            "particle model '{spec}': unknown parameter '{extra}'; {} takes {}",
+            kind.name(),
             wanted.join(", ")
         );
     }
-    let get = |key: &str| {
-        values.get(key).copied().with_context(|| {
+    let mut ordered = Vec::with_capacity(wanted.len());
+    for key in &wanted {
+        ordered.push(values.get(*key).copied().with_context(|| {
             format!(
-                "particle model '{spec}': missing '{key}'; {kind} takes {}",
+                "particle model '{spec}': missing '{key}'; {} takes {}",
+                kind.name(),
                 wanted.join(", ")
             )
-        })
-    };
-    let cross_section = match kind {
-        "constant" => CrossSection::constant(get("sigma_m")?),
-        "fall-off" => CrossSection::fall_off(get("sigma0_m")?, get("w")?),
-        "yukawa" => CrossSection::yukawa(get("m_chi")?, get("m_phi")?, get("alpha")?),
-        _ => CrossSection::resonance(
-            get("m_chi")?,
-            get("delta")?,
-            get("gamma")?,
-            get("background")?,
-        ),
-    };
+        })?);
+    }
+    let cross_section = kind.build(&ordered);
     cross_section.with_context(|| format!("particle model '{spec}'"))
 }
 
@@ -194,7 +187,7 @@ fn particle_curve(cross_section: &CrossSection, speeds: &[f64]) -> Vec<ParticleP
     speeds
         .iter()
         .map(|&v| {
-            let sigma0 = v * std::f64::consts::PI.sqrt() / 4.0;
+            let sigma0 = dispersion_from_mean_relative_speed_kms(v);
             let sigma_m = cross_section.sigma_m_cm2_g(v);
             ParticlePoint {
                 v_kms: v,

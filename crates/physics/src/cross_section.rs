@@ -15,6 +15,182 @@ pub fn mean_relative_speed_kms(sigma0_kms: f64) -> f64 {
     4.0 * sigma0_kms / std::f64::consts::PI.sqrt()
 }
 
+/// The 1D dispersion σ0 whose Maxwellian has mean relative speed `v_rel_kms`: the inverse of
+/// [`mean_relative_speed_kms`], σ0 = ⟨v_rel⟩ √π / 4, km/s.
+#[must_use]
+pub fn dispersion_from_mean_relative_speed_kms(v_rel_kms: f64) -> f64 {
+    v_rel_kms * std::f64::consts::PI.sqrt() / 4.0
+}
+
+/// MeV in GeV.
+#[must_use]
+pub fn mev_to_gev(mass_mev: f64) -> f64 {
+    mass_mev * 1e-3
+}
+
+/// The kinds of σ(v)/m model, each described once: its parameters (key, symbol, unit, default
+/// log10 bounds and default value) and one constructor from values
+/// ([`CrossSectionKind::build`]). The command line's `--particle kind:key=value,...`, the app's
+/// particle panel and the population fits all read this description.
+#[derive(
+    Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord, serde::Serialize, serde::Deserialize,
+)]
+#[serde(rename_all = "kebab-case")]
+pub enum CrossSectionKind {
+    Constant,
+    FallOff,
+    Yukawa,
+    Resonance,
+}
+
+/// One parameter of a cross-section model.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct CrossSectionParam {
+    /// Machine key (`--particle`, JSON), e.g. `m_phi`.
+    pub key: &'static str,
+    /// Symbol for people, e.g. `m_φ`.
+    pub symbol: &'static str,
+    /// Unit for people (empty when dimensionless).
+    pub unit: &'static str,
+    /// Default bounds of log10 of the value: the population fits' uniform prior and the app's
+    /// slider range (common practice: wide enough to span dwarfs to clusters; chosen here, not
+    /// taken from a publication).
+    pub log10_bounds: (f64, f64),
+    /// Default value.
+    pub default: f64,
+    /// Held at its default in population fits (the Yukawa dark-matter mass: in the Born regime
+    /// σ_T/m depends on (α, m_χ, m_φ) through two combinations only).
+    pub held_in_population_fits: bool,
+}
+
+impl CrossSectionParam {
+    /// "symbol [unit]", or the symbol alone.
+    #[must_use]
+    pub fn label(&self) -> String {
+        if self.unit.is_empty() {
+            self.symbol.to_string()
+        } else {
+            format!("{} [{}]", self.symbol, self.unit)
+        }
+    }
+}
+
+const fn xs_param(
+    key: &'static str,
+    symbol: &'static str,
+    unit: &'static str,
+    log10_bounds: (f64, f64),
+    default: f64,
+) -> CrossSectionParam {
+    CrossSectionParam {
+        key,
+        symbol,
+        unit,
+        log10_bounds,
+        default,
+        held_in_population_fits: false,
+    }
+}
+
+/// The Yukawa dark-matter mass held in population fits unless the user says otherwise, GeV.
+pub const DEFAULT_YUKAWA_DM_MASS_GEV: f64 = 10.0;
+
+const CONSTANT_PARAMS: [CrossSectionParam; 1] =
+    [xs_param("sigma_m", "σ/m", "cm²/g", (-3.0, 3.0), 1.0)];
+const FALL_OFF_PARAMS: [CrossSectionParam; 2] = [
+    xs_param("sigma0_m", "σ0/m", "cm²/g", (-2.0, 4.0), 10.0),
+    xs_param("w", "w", "km/s", (0.5, 4.0), 200.0),
+];
+const YUKAWA_PARAMS: [CrossSectionParam; 3] = [
+    xs_param("alpha", "α", "", (-9.0, -1.0), 6e-4),
+    xs_param("m_phi", "m_φ", "MeV", (-2.0, 3.0), 5.0),
+    CrossSectionParam {
+        held_in_population_fits: true,
+        ..xs_param(
+            "m_chi",
+            "m_χ",
+            "GeV",
+            (-1.0, 3.0),
+            DEFAULT_YUKAWA_DM_MASS_GEV,
+        )
+    },
+];
+const RESONANCE_PARAMS: [CrossSectionParam; 4] = [
+    xs_param("m_chi", "m_χ", "GeV", (-1.0, 3.0), 20.0),
+    xs_param("delta", "δ", "", (-10.0, -5.0), 1e-8),
+    xs_param("gamma", "γ", "", (-7.0, -1.0), 1e-4),
+    xs_param("background", "background", "cm²/g", (-3.0, 2.0), 0.3),
+];
+
+impl CrossSectionKind {
+    /// Every kind, in the order outputs list them.
+    pub const ALL: [Self; 4] = [Self::Constant, Self::FallOff, Self::Yukawa, Self::Resonance];
+
+    /// The name on the command line and in outputs.
+    #[must_use]
+    pub fn name(self) -> &'static str {
+        match self {
+            Self::Constant => "constant",
+            Self::FallOff => "fall-off",
+            Self::Yukawa => "yukawa",
+            Self::Resonance => "resonance",
+        }
+    }
+
+    /// The kind called `name`.
+    #[must_use]
+    pub fn from_name(name: &str) -> Option<Self> {
+        Self::ALL.into_iter().find(|k| k.name() == name.trim())
+    }
+
+    /// A one-line formula for legends and reports.
+    #[must_use]
+    pub fn formula(self) -> &'static str {
+        match self {
+            Self::Constant => "σ/m",
+            Self::FallOff => "σ0/m (1 + v²/w²)⁻²",
+            Self::Yukawa => "Yukawa Born σ_T/m (α, m_φ, m_χ)",
+            Self::Resonance => "s-wave resonance (m_χ, δ, γ) + background",
+        }
+    }
+
+    /// The parameters, in the order [`CrossSectionKind::build`] takes their values.
+    #[must_use]
+    pub fn parameters(self) -> &'static [CrossSectionParam] {
+        match self {
+            Self::Constant => &CONSTANT_PARAMS,
+            Self::FallOff => &FALL_OFF_PARAMS,
+            Self::Yukawa => &YUKAWA_PARAMS,
+            Self::Resonance => &RESONANCE_PARAMS,
+        }
+    }
+
+    /// The default values, in [`CrossSectionKind::parameters`] order.
+    #[must_use]
+    pub fn defaults(self) -> Vec<f64> {
+        self.parameters().iter().map(|p| p.default).collect()
+    }
+
+    /// The cross-section from physical values in [`CrossSectionKind::parameters`] order.
+    pub fn build(self, values: &[f64]) -> Result<CrossSection, PhysicsError> {
+        let expected = self.parameters().len();
+        if values.len() != expected {
+            return Err(PhysicsError::InvalidTable(format!(
+                "the {} cross-section takes {expected} values, got {}",
+                self.name(),
+                values.len()
+            )));
+        }
+        let v = |k: usize| values[k];
+        match self {
+            Self::Constant => CrossSection::constant(v(0)),
+            Self::FallOff => CrossSection::fall_off(v(0), v(1)),
+            Self::Yukawa => CrossSection::yukawa(v(2), v(1), v(0)),
+            Self::Resonance => CrossSection::resonance(v(0), v(1), v(2), v(3)),
+        }
+    }
+}
+
 /// A dark-matter self-interaction cross-section per unit mass, σ(v)/m, as a function of the
 /// relative speed v of the colliding pair.
 ///
@@ -117,7 +293,7 @@ impl CrossSection {
                 mediator_mass_mev,
                 alpha,
             } => {
-                let mediator_gev = mediator_mass_mev * 1e-3;
+                let mediator_gev = mev_to_gev(mediator_mass_mev);
                 let v = v_kms / SPEED_OF_LIGHT_KMS;
                 let r = dm_mass_gev * v / mediator_gev;
                 let r2 = r * r;
@@ -190,7 +366,7 @@ impl CrossSection {
                 dm_mass_gev,
                 mediator_mass_mev,
                 ..
-            } => Some(mediator_mass_mev * 1e-3 / dm_mass_gev * SPEED_OF_LIGHT_KMS),
+            } => Some(mev_to_gev(mediator_mass_mev) / dm_mass_gev * SPEED_OF_LIGHT_KMS),
             Self::Resonance { .. } => self.resonance_speed_kms(),
         }
     }

@@ -39,7 +39,7 @@ pub use baryons::{
     Hernquist, NoBaryons,
 };
 pub use cosmology::Cosmology;
-pub use cross_section::CrossSection;
+pub use cross_section::{CrossSection, CrossSectionKind, CrossSectionParam};
 pub use error::PhysicsError;
 pub use families::{BuiltHalo, HaloContext, HaloDerived, HaloFamily, HaloModel};
 pub use halo::{

@@ -23,11 +23,13 @@
 
 use caldera_data::{ConstraintValue, OutsideConstraint};
 use caldera_physics::CrossSection;
-use caldera_physics::cross_section::mean_relative_speed_kms;
+use caldera_physics::cross_section::{
+    dispersion_from_mean_relative_speed_kms, mean_relative_speed_kms,
+};
 use serde::{Deserialize, Serialize};
 
 use crate::InferError;
-use crate::population::models::VelocityModel;
+use crate::population::models::{PopulationModel, PopulationParameter, VelocityModel};
 use crate::sampler::LogDensity;
 use crate::summary::{Interval, interval};
 
@@ -247,6 +249,8 @@ pub struct PopulationLikelihood<'a> {
     constraints: &'a [OutsideConstraint],
     /// ln σ0 at the table nodes (joint treatment).
     ln_sigma0_nodes: Vec<f64>,
+    /// The model's sampled coordinates.
+    parameters: Vec<PopulationParameter>,
 }
 
 impl<'a> PopulationLikelihood<'a> {
@@ -279,7 +283,14 @@ impl<'a> PopulationLikelihood<'a> {
             galaxies,
             constraints,
             ln_sigma0_nodes,
+            parameters: model.population_parameters(),
         }
+    }
+
+    /// The sampled coordinates (log10 of each free parameter) and their bounds.
+    #[must_use]
+    pub fn parameters(&self) -> &[PopulationParameter] {
+        &self.parameters
     }
 
     /// Number of data points: galaxies plus outside constraints.
@@ -291,10 +302,10 @@ impl<'a> PopulationLikelihood<'a> {
     /// True when every coordinate lies within its prior bounds.
     #[must_use]
     pub fn in_bounds(&self, theta: &[f64]) -> bool {
-        theta.len() == self.model.parameters().len()
+        theta.len() == self.parameters.len()
             && theta
                 .iter()
-                .zip(self.model.parameters())
+                .zip(&self.parameters)
                 .all(|(x, p)| *x >= p.lower && *x <= p.upper)
     }
 
@@ -342,7 +353,7 @@ impl<'a> PopulationLikelihood<'a> {
             .constraints
             .iter()
             .map(|c| {
-                let sigma0 = c.v_rel_kms * std::f64::consts::PI.sqrt() / 4.0;
+                let sigma0 = dispersion_from_mean_relative_speed_kms(c.v_rel_kms);
                 constraint_log_likelihood(c, effective_sigma_m_cm2_g(&cross_section, sigma0))
             })
             .sum();
@@ -357,7 +368,7 @@ impl<'a> PopulationLikelihood<'a> {
 
 impl LogDensity for PopulationLikelihood<'_> {
     fn dim(&self) -> usize {
-        self.model.parameters().len()
+        self.parameters.len()
     }
 
     fn log_density(&self, theta: &[f64], _derived: &mut [f64]) -> f64 {

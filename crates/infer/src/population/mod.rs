@@ -19,6 +19,7 @@ use rand_xoshiro::Xoshiro256PlusPlus;
 use serde::{Deserialize, Serialize};
 
 use caldera_data::OutsideConstraint;
+use caldera_physics::cross_section::{dispersion_from_mean_relative_speed_kms, mev_to_gev};
 use caldera_physics::{ParamId, Transform};
 
 use crate::InferError;
@@ -31,7 +32,7 @@ pub use likelihood::{
     GalaxyPosterior, PopulationLikelihood, Treatment, constraint_log_likelihood,
     effective_sigma_m_cm2_g,
 };
-pub use models::{PopulationParameter, VelocityModel};
+pub use models::{PopulationModel, PopulationParameter, VelocityModel};
 
 /// Everything that controls a population fit.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
@@ -269,7 +270,7 @@ impl PopulationFit {
         v_rel_kms
             .iter()
             .map(|&v| {
-                let sigma0 = v * std::f64::consts::PI.sqrt() / 4.0;
+                let sigma0 = dispersion_from_mean_relative_speed_kms(v);
                 let mut values: Vec<f64> = draws
                     .iter()
                     .map(|c| effective_sigma_m_cm2_g(c, sigma0))
@@ -305,7 +306,6 @@ fn maximum_likelihood(
     rng: &mut Xoshiro256PlusPlus,
 ) -> Result<MapEstimate, InferError> {
     let bounds: Vec<(f64, f64)> = density
-        .model
         .parameters()
         .iter()
         .map(|p| (p.lower, p.upper))
@@ -353,7 +353,7 @@ pub fn fit_population<O: Observer>(
         galaxies,
         constraints,
     );
-    let parameters = model.parameters();
+    let parameters = model.population_parameters();
     let dim = parameters.len();
     let seed = settings.seed ^ (model as u64 + 1).wrapping_mul(0x9e37_79b9_7f4a_7c15);
     let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
@@ -370,7 +370,7 @@ pub fn fit_population<O: Observer>(
             let trial: Vec<f64> = best
                 .theta
                 .iter()
-                .zip(parameters)
+                .zip(&parameters)
                 .map(|(x, p)| x + scale * (p.upper - p.lower) * normal(&mut rng))
                 .collect();
             if density.log_likelihood(&trial).is_finite() {
@@ -431,7 +431,9 @@ pub fn fit_population<O: Observer>(
         let born: Vec<f64> = {
             let mut v: Vec<f64> = samples
                 .iter()
-                .map(|t| 10f64.powf(t[0]) * settings.yukawa_dm_mass_gev / (10f64.powf(t[1]) * 1e-3))
+                .map(|t| {
+                    10f64.powf(t[0]) * settings.yukawa_dm_mass_gev / mev_to_gev(10f64.powf(t[1]))
+                })
                 .collect();
             v.sort_by(f64::total_cmp);
             v
