@@ -8,6 +8,7 @@ use caldera_infer::population::{
     GalaxyPosterior, PopulationFit, PopulationSettings, Treatment, VelocityModel,
     effective_sigma_m_cm2_g, fit_population, load_folder_posteriors, preferred_by_bic,
 };
+use caldera_infer::run_folder::RunFolder;
 use caldera_infer::sampler::Silent;
 use caldera_physics::CrossSection;
 use caldera_physics::cross_section::dispersion_from_mean_relative_speed_kms;
@@ -162,7 +163,7 @@ impl CalderaApp {
             }
         }
         if let Some(folder) = key.1.as_ref().and_then(|p| p.parent())
-            && folder.join("galaxies").is_dir()
+            && RunFolder::new(folder).exists()
         {
             match load_folder_posteriors(folder, &prior, max) {
                 Ok(loaded) => {

@@ -15,10 +15,11 @@ use anyhow::{Context, bail};
 use caldera_data::session::{HaloModel, save_session};
 use caldera_data::{GalaxyTable, ReadOptions, load_catalogue, write_atomic};
 use caldera_infer::layout::ParamSpec;
+use caldera_infer::run_folder::{GALAXIES_DIR, RunFolder};
 use caldera_infer::model::GalaxyModel;
 use caldera_infer::sampler::{Control, Progress};
 use caldera_infer::session::Session;
-use caldera_infer::{FitConfig, FitResult, FitSummary, fit_galaxy};
+use caldera_infer::{FitConfig, FitResult, fit_galaxy};
 use caldera_report::figures::{
     CornerFigure, PopulationFigure, PopulationPoint, RotationCurveFigure, save_figure,
 };
@@ -30,7 +31,6 @@ use rayon::prelude::*;
 use crate::Verbosity;
 
 /// Sub-folder holding one folder per galaxy.
-const GALAXIES_DIR: &str = "galaxies";
 
 /// A deterministic slice of a catalogue: the K-th of N (1-based).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -83,12 +83,6 @@ pub struct BatchArgs {
     pub no_figures: bool,
 }
 
-/// Folder name for a galaxy: its table's file stem.
-fn slug(path: &Path) -> String {
-    path.file_stem()
-        .map_or_else(|| "galaxy".into(), |s| s.to_string_lossy().into_owned())
-}
-
 /// A seed for one galaxy and model that does not depend on shards or order (FNV-1a).
 fn job_seed(base: u64, galaxy: &str, model: HaloModel) -> u64 {
     let mut hash: u64 = 0xcbf2_9ce4_8422_2325 ^ base;
@@ -117,7 +111,7 @@ pub(crate) fn run(
 ) -> anyhow::Result<ExitCode> {
     let started = Instant::now();
     let catalogue = load_catalogue(path, read)?;
-    std::fs::create_dir_all(out.join(GALAXIES_DIR))
+    std::fs::create_dir_all(RunFolder::new(out).galaxies_dir())
         .with_context(|| format!("cannot create {}", out.display()))?;
     let mut failures = 0usize;
     let mut jobs = Vec::new();
@@ -138,11 +132,11 @@ pub(crate) fn run(
                 }
                 for &model in models {
                     let job = Job {
-                        slug: slug(&entry.path),
+                        slug: RunFolder::slug(&entry.path),
                         table,
                         model,
                     };
-                    let done = summary_path(out, &job.slug, model).exists();
+                    let done = RunFolder::new(out).summary_path(&job.slug, model).exists();
                     if args.force || !done {
                         jobs.push(job);
                     }
@@ -264,12 +258,6 @@ pub(crate) fn run(
     })
 }
 
-fn summary_path(out: &Path, slug: &str, model: HaloModel) -> PathBuf {
-    out.join(GALAXIES_DIR)
-        .join(slug)
-        .join(format!("{}.summary.json", model.name()))
-}
-
 /// Writes one finished fit: chain, figures, then the summary last (its presence marks the job
 /// done, so an interrupted write is redone on the next run).
 fn write_job(
@@ -279,11 +267,12 @@ fn write_job(
     result: &FitResult,
     figures: bool,
 ) -> anyhow::Result<()> {
-    let folder = out.join(GALAXIES_DIR).join(&job.slug);
+    let run = RunFolder::new(out);
+    let folder = run.galaxy_dir(&job.slug);
     std::fs::create_dir_all(&folder)
         .with_context(|| format!("cannot create {}", folder.display()))?;
     let name = job.model.name();
-    let chain_path = folder.join(format!("{name}.chain.csv"));
+    let chain_path = run.chain_path(&job.slug, job.model);
     write_atomic(
         &chain_path,
         result.chain_table().to_csv(&chain_path)?.as_bytes(),
@@ -316,62 +305,29 @@ fn write_job(
                 .collect(),
         };
         for extension in ["svg", "png"] {
-            save_figure(&curve, &folder.join(format!("{name}.curve.{extension}")))?;
-            save_figure(&corner, &folder.join(format!("{name}.corner.{extension}")))?;
+            save_figure(&curve, &run.curve_figure_path(&job.slug, job.model, extension))?;
+            save_figure(&corner, &run.corner_figure_path(&job.slug, job.model, extension))?;
         }
     }
     let summary = serde_json::to_string_pretty(&result.summary)? + "\n";
-    write_atomic(&summary_path(out, &job.slug, job.model), summary.as_bytes())?;
+    write_atomic(&run.summary_path(&job.slug, job.model), summary.as_bytes())?;
     Ok(())
-}
-
-/// Reads every galaxy's summaries under `out`, sorted by galaxy then model.
-fn read_summaries(out: &Path) -> anyhow::Result<Vec<FitSummary>> {
-    let mut summaries = Vec::new();
-    let galaxies = out.join(GALAXIES_DIR);
-    let Ok(folders) = std::fs::read_dir(&galaxies) else {
-        return Ok(summaries);
-    };
-    let mut files: Vec<PathBuf> = folders
-        .filter_map(Result::ok)
-        .filter(|e| e.path().is_dir())
-        .flat_map(|e| {
-            std::fs::read_dir(e.path())
-                .into_iter()
-                .flatten()
-                .filter_map(Result::ok)
-        })
-        .map(|e| e.path())
-        .filter(|p| p.to_string_lossy().ends_with(".summary.json"))
-        .collect();
-    files.sort();
-    for file in files {
-        let text = std::fs::read_to_string(&file)
-            .with_context(|| format!("cannot read {}", file.display()))?;
-        summaries.push(
-            serde_json::from_str(&text)
-                .with_context(|| format!("{} is not a fit summary", file.display()))?,
-        );
-    }
-    summaries.sort_by(|a: &FitSummary, b: &FitSummary| {
-        a.galaxy.cmp(&b.galaxy).then_with(|| a.model.cmp(&b.model))
-    });
-    Ok(summaries)
 }
 
 /// Rebuilds the catalogue's tables, population figure and session from the summaries on disk.
 fn rebuild_outputs(out: &Path, mut session: Session) -> anyhow::Result<usize> {
-    let summaries = read_summaries(out)?;
+    let run = RunFolder::new(out);
+    let summaries = run.read_summaries()?;
     let table = results_table(&summaries);
     write_atomic(
-        &out.join("results.csv"),
-        table.to_csv(&out.join("results.csv"))?.as_bytes(),
+        &run.results_path("csv"),
+        table.to_csv(&run.results_path("csv"))?.as_bytes(),
     )?;
     write_atomic(
-        &out.join("results.ecsv"),
-        table.to_ecsv(&out.join("results.ecsv"))?.as_bytes(),
+        &run.results_path("ecsv"),
+        table.to_ecsv(&run.results_path("ecsv"))?.as_bytes(),
     )?;
-    write_atomic(&out.join("results.tex"), latex_table(&summaries).as_bytes())?;
+    write_atomic(&run.results_path("tex"), latex_table(&summaries).as_bytes())?;
     let points: Vec<PopulationPoint> = summaries
         .iter()
         .filter(|s| s.model == HaloModel::Sidm)
@@ -389,12 +345,12 @@ fn rebuild_outputs(out: &Path, mut session: Session) -> anyhow::Result<usize> {
             points,
             curves: Vec::new(),
         };
-        save_figure(&figure, &out.join("population.svg"))?;
-        save_figure(&figure, &out.join("population.png"))?;
+        save_figure(&figure, &run.population_figure_path("svg"))?;
+        save_figure(&figure, &run.population_figure_path("png"))?;
     }
     let count = summaries.len();
     session.results = summaries;
-    save_session(&out.join("session.ron"), &session)?;
+    save_session(&run.session_path(), &session)?;
     Ok(count)
 }
 
@@ -419,8 +375,8 @@ pub(crate) fn merge(args: &MergeArgs, verbosity: Verbosity) -> anyhow::Result<Ex
     let mut sources: BTreeMap<PathBuf, PathBuf> = BTreeMap::new();
     let mut session: Option<Session> = None;
     for input in &args.inputs {
-        let galaxies = input.join(GALAXIES_DIR);
-        let entries = std::fs::read_dir(&galaxies).with_context(|| {
+        let shard = RunFolder::new(input);
+        let entries = std::fs::read_dir(shard.galaxies_dir()).with_context(|| {
             format!(
                 "{} is not a Caldera output folder (no {GALAXIES_DIR}/)",
                 input.display()
@@ -443,11 +399,11 @@ pub(crate) fn merge(args: &MergeArgs, verbosity: Verbosity) -> anyhow::Result<Ex
             }
         }
         if session.is_none() {
-            session = caldera_data::session::load_session(&input.join("session.ron")).ok();
+            session = caldera_data::session::load_session(&shard.session_path()).ok();
         }
     }
     for (relative, source) in &sources {
-        let target = args.out.join(GALAXIES_DIR).join(relative);
+        let target = RunFolder::new(&args.out).galaxies_dir().join(relative);
         if let Some(parent) = target.parent() {
             std::fs::create_dir_all(parent)
                 .with_context(|| format!("cannot create {}", parent.display()))?;

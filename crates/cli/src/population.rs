@@ -16,6 +16,7 @@ use caldera_infer::population::{
 use caldera_infer::sampler::Silent;
 use caldera_infer::session::Session;
 use caldera_infer::summary::Interval;
+use caldera_infer::run_folder::RunFolder;
 use caldera_physics::cross_section::dispersion_from_mean_relative_speed_kms;
 use caldera_physics::units::BARN_PER_GEV_PER_CM2_PER_G;
 use caldera_physics::{CrossSection, CrossSectionKind};
@@ -441,7 +442,8 @@ pub(crate) fn run(args: &PopulationArgs, verbosity: Verbosity) -> anyhow::Result
         .iter()
         .map(|spec| Ok((spec.clone(), parse_particle(spec)?)))
         .collect::<anyhow::Result<_>>()?;
-    let session_path = args.results.join("session.ron");
+    let run = RunFolder::new(&args.results);
+    let session_path = run.session_path();
     let session: Session = load_session(&session_path).with_context(|| {
         format!(
             "{} is not the output folder of a catalogue run (no readable session.ron)",
@@ -530,7 +532,7 @@ pub(crate) fn run(args: &PopulationArgs, verbosity: Verbosity) -> anyhow::Result
     let out = args
         .out
         .clone()
-        .unwrap_or_else(|| args.results.join("population"));
+        .unwrap_or_else(|| run.population_dir());
     std::fs::create_dir_all(&out).with_context(|| format!("cannot create {}", out.display()))?;
     let json = serde_json::to_string_pretty(&report)? + "\n";
     write_atomic(&out.join("population.json"), json.as_bytes())?;

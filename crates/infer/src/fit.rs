@@ -6,7 +6,6 @@ use caldera_data::session::HaloModel;
 use caldera_data::{GalaxyTable, OutputTable};
 use caldera_physics::{Cosmology, ParamId, ParamValues};
 use rand::SeedableRng;
-use rand_distr::{Distribution, StandardNormal};
 use rand_xoshiro::Xoshiro256PlusPlus;
 use serde::{Deserialize, Serialize};
 
@@ -16,8 +15,9 @@ use crate::layout::ParamSpec;
 use crate::model::{DERIVED_NAMES, Derived, Evaluation, FailureSummary, GalaxyModel};
 use crate::optimize::maximum_a_posteriori;
 use crate::priors::Priors;
-use crate::sampler::{ChainStore, EnsembleState, LogDensity, MoveMix, Observer, RunConfig, run};
-use crate::summary::{Interval, interval, piles_at_lower_bound, quantile};
+use crate::sampler::{ChainStore, LogDensity, MoveMix, Observer, RunConfig};
+use crate::pipeline::{SamplingPlan, bounded_interval, information_criteria, sample_around};
+use crate::summary::{Interval, interval};
 
 /// Everything that controls a fit (saved with a session).
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
@@ -109,10 +109,6 @@ pub struct FitResult {
     pub best: Evaluation,
 }
 
-fn normal(rng: &mut Xoshiro256PlusPlus) -> f64 {
-    Distribution::<f64>::sample(&StandardNormal, rng)
-}
-
 /// Fits `model` to `table`.
 pub fn fit_galaxy<O: Observer>(
     table: &GalaxyTable,
@@ -132,31 +128,27 @@ pub fn fit_galaxy<O: Observer>(
     let map = maximum_a_posteriori(&posterior, config.map_starts, config.seed)?;
 
     // Walkers in a small ball around the MAP, each with a positive posterior.
-    let n_walkers = {
-        let n = config.n_walkers.max(2 * dim + 2);
-        n + n % 2
-    };
     let mut rng = Xoshiro256PlusPlus::seed_from_u64(config.seed ^ 0x5eed_ba11);
-    let mut derived = vec![f64::NAN; posterior.n_derived()];
-    let mut initial = Vec::with_capacity(n_walkers);
-    for _ in 0..n_walkers {
-        let mut placed = map.theta.clone();
-        for scale in [1e-2, 1e-3, 1e-4, 1e-6] {
-            let trial: Vec<f64> = map
-                .theta
-                .iter()
-                .zip(posterior.parameters())
-                .map(|(x, p)| x + scale * (p.upper - p.lower) * normal(&mut rng))
-                .collect();
-            if posterior.log_density(&trial, &mut derived).is_finite() {
-                placed = trial;
-                break;
-            }
-        }
-        initial.push(placed);
-    }
-    let state = EnsembleState::new(&posterior, initial, config.seed)?;
-    let outcome = run(&posterior, &config.moves, state, &config.run, observer);
+    let plan = SamplingPlan {
+        n_walkers: config.n_walkers,
+        ball_scales: &[1e-2, 1e-3, 1e-4, 1e-6],
+        moves: &config.moves,
+        run: &config.run,
+        seed: config.seed,
+    };
+    let bounds = posterior.layout().bounds();
+    let (outcome, n_walkers) = sample_around(
+        &posterior,
+        &map.theta,
+        &bounds,
+        &plan,
+        &mut rng,
+        |trial| {
+            let mut derived = vec![f64::NAN; posterior.n_derived()];
+            posterior.log_density(trial, &mut derived).is_finite()
+        },
+        observer,
+    )?;
     let burn_in = outcome.burn_in();
     let thin = outcome.thin();
     let chain = &outcome.chain;
@@ -187,18 +179,21 @@ pub fn fit_galaxy<O: Observer>(
     let k = dim;
     let n = posterior.n_points();
     let dof = n.saturating_sub(k);
-    let mut sigma_m = interval(column(Derived::SigmaM));
-    if let Some(k) = posterior.layout().index_of(ParamId::SigmaM) {
-        let p = &posterior.parameters()[k];
-        let coordinates: Vec<f64> = kept.iter().map(|&(s, w)| chain.position(s, w, k)).collect();
-        if piles_at_lower_bound(&coordinates, p.lower, p.upper)
-            && let Some(summary) = sigma_m.as_mut()
-        {
-            let mut physical: Vec<f64> = coordinates.iter().map(|&c| p.physical(c)).collect();
-            physical.sort_by(f64::total_cmp);
-            summary.upper95 = Some(quantile(&physical, 0.95));
+    let sigma_m = match posterior.layout().index_of(ParamId::SigmaM) {
+        Some(k) => {
+            let p = &posterior.parameters()[k];
+            let coordinates: Vec<f64> =
+                kept.iter().map(|&(s, w)| chain.position(s, w, k)).collect();
+            bounded_interval(
+                column(Derived::SigmaM),
+                &coordinates,
+                (p.lower, p.upper),
+                |c| p.physical(c),
+            )
         }
-    }
+        None => interval(column(Derived::SigmaM)),
+    };
+    let (aic, bic) = information_criteria(k, n, best.log_likelihood);
     let rhat_max = split_rhat(chain, burn_in)
         .into_iter()
         .fold(f64::NAN, f64::max);
@@ -224,8 +219,8 @@ pub fn fit_galaxy<O: Observer>(
             f64::NAN
         },
         log_likelihood_max: best.log_likelihood,
-        aic: 2.0 * k as f64 - 2.0 * best.log_likelihood,
-        bic: k as f64 * (n as f64).ln() - 2.0 * best.log_likelihood,
+        aic,
+        bic,
         n_parameters: k,
         n_points: n,
         converged: outcome.converged,

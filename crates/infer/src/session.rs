@@ -82,6 +82,10 @@ impl Session {
             .retain(|r| !(r.galaxy == summary.galaxy && r.model == summary.model));
         self.results.push(summary);
         self.results
-            .sort_by(|a, b| a.galaxy.cmp(&b.galaxy).then_with(|| a.model.cmp(&b.model)));
+            .sort_by(|a, b| {
+                a.galaxy
+                    .cmp(&b.galaxy)
+                    .then_with(|| a.model.name().cmp(b.model.name()))
+            });
     }
 }

@@ -14,19 +14,20 @@ pub mod models;
 
 use rand::RngExt;
 use rand::SeedableRng;
-use rand_distr::{Distribution, StandardNormal};
 use rand_xoshiro::Xoshiro256PlusPlus;
 use serde::{Deserialize, Serialize};
 
 use caldera_data::OutsideConstraint;
 use caldera_physics::cross_section::{dispersion_from_mean_relative_speed_kms, mev_to_gev};
-use caldera_physics::{ParamId, Transform};
+use caldera_physics::{HaloModel, ParamId, Transform};
 
 use crate::InferError;
+use crate::run_folder::RunFolder;
 use crate::optimize::{MapEstimate, multistart_nelder_mead};
+use crate::pipeline::{SamplingPlan, bounded_interval, information_criteria, sample_around};
 use crate::priors::CrossSectionPrior;
-use crate::sampler::{EnsembleState, MoveMix, Observer, RunConfig, run};
-use crate::summary::{Interval, interval, piles_at_lower_bound, quantile};
+use crate::sampler::{MoveMix, Observer, RunConfig};
+use crate::summary::{Interval, quantile};
 
 pub use likelihood::{
     GalaxyPosterior, PopulationLikelihood, Treatment, constraint_log_likelihood,
@@ -151,36 +152,20 @@ pub fn load_folder_posteriors(
     prior: &CrossSectionPrior,
     max_samples: usize,
 ) -> Result<FolderPosteriors, InferError> {
-    let folder = results.join("galaxies");
-    let io = |path: &std::path::Path, source| {
-        InferError::Data(caldera_data::DataError::Io {
-            path: path.to_path_buf(),
-            source,
-        })
-    };
-    let mut folders: Vec<std::path::PathBuf> = std::fs::read_dir(&folder)
-        .map_err(|e| io(&folder, e))?
-        .filter_map(Result::ok)
-        .map(|e| e.path())
-        .filter(|p| p.is_dir())
-        .collect();
-    folders.sort();
+    let run = RunFolder::new(results);
     let mut out = FolderPosteriors::default();
-    for galaxy_folder in folders {
-        let summary_path = galaxy_folder.join("sidm.summary.json");
-        let chain_path = galaxy_folder.join("sidm.chain.csv");
-        if !summary_path.exists() || !chain_path.exists() {
-            out.skipped
-                .push(format!("{}: no finished SIDM fit", galaxy_folder.display()));
-            continue;
-        }
-        let text = std::fs::read_to_string(&summary_path).map_err(|e| io(&summary_path, e))?;
-        let summary: crate::FitSummary = serde_json::from_str(&text).map_err(|e| {
-            InferError::Config(format!(
-                "{} is not a fit summary: {e}",
-                summary_path.display()
-            ))
-        })?;
+    for slug in run.slugs()? {
+        let chain_path = run.chain_path(&slug, HaloModel::Sidm);
+        let summary = match run.read_summary(&slug, HaloModel::Sidm)? {
+            Some(summary) if chain_path.exists() => summary,
+            _ => {
+                out.skipped.push(format!(
+                    "{}: no finished SIDM fit",
+                    run.galaxy_dir(&slug).display()
+                ));
+                continue;
+            }
+        };
         let chain = caldera_data::read_numeric_csv(&chain_path)?;
         let column = |id: ParamId| {
             let name = id.column(Transform::Log10);
@@ -294,10 +279,6 @@ impl PopulationFit {
     }
 }
 
-fn normal(rng: &mut Xoshiro256PlusPlus) -> f64 {
-    Distribution::<f64>::sample(&StandardNormal, rng)
-}
-
 /// Maximum likelihood over the bounded log10 coordinates: Nelder–Mead from `starts` uniform
 /// random points, the best polished once more.
 fn maximum_likelihood(
@@ -359,35 +340,23 @@ pub fn fit_population<O: Observer>(
     let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
     let best = maximum_likelihood(&density, settings.map_starts * dim, &mut rng)?;
 
-    let n_walkers = {
-        let n = settings.n_walkers.max(2 * dim + 2);
-        n + n % 2
+    let bounds: Vec<(f64, f64)> = parameters.iter().map(|p| (p.lower, p.upper)).collect();
+    let plan = SamplingPlan {
+        n_walkers: settings.n_walkers,
+        ball_scales: &[1e-2, 1e-3, 1e-5],
+        moves: &MoveMix::default(),
+        run: &settings.run,
+        seed,
     };
-    let mut initial = Vec::with_capacity(n_walkers);
-    for _ in 0..n_walkers {
-        let mut placed = best.theta.clone();
-        for scale in [1e-2, 1e-3, 1e-5] {
-            let trial: Vec<f64> = best
-                .theta
-                .iter()
-                .zip(&parameters)
-                .map(|(x, p)| x + scale * (p.upper - p.lower) * normal(&mut rng))
-                .collect();
-            if density.log_likelihood(&trial).is_finite() {
-                placed = trial;
-                break;
-            }
-        }
-        initial.push(placed);
-    }
-    let state = EnsembleState::new(&density, initial, seed)?;
-    let outcome = run(
+    let (outcome, _) = sample_around(
         &density,
-        &MoveMix::default(),
-        state,
-        &settings.run,
+        &best.theta,
+        &bounds,
+        &plan,
+        &mut rng,
+        |trial| density.log_likelihood(trial).is_finite(),
         observer,
-    );
+    )?;
     let (burn_in, thin) = (outcome.burn_in(), outcome.thin());
     let chain = &outcome.chain;
     let mut log_likelihood_max = best.log_posterior;
@@ -407,14 +376,12 @@ pub fn fit_population<O: Observer>(
         .enumerate()
         .map(|(k, p)| {
             let coordinates: Vec<f64> = samples.iter().map(|t| t[k]).collect();
-            let mut summary = interval(coordinates.iter().map(|x| 10f64.powf(*x)));
-            if piles_at_lower_bound(&coordinates, p.lower, p.upper)
-                && let Some(s) = summary.as_mut()
-            {
-                let mut physical: Vec<f64> = coordinates.iter().map(|x| 10f64.powf(*x)).collect();
-                physical.sort_by(f64::total_cmp);
-                s.upper95 = Some(quantile(&physical, 0.95));
-            }
+            let summary = bounded_interval(
+                coordinates.iter().map(|x| 10f64.powf(*x)),
+                &coordinates,
+                (p.lower, p.upper),
+                |x| 10f64.powf(x),
+            );
             FittedParameter {
                 name: p.name.to_string(),
                 unit: p.unit.to_string(),
@@ -423,7 +390,6 @@ pub fn fit_population<O: Observer>(
             }
         })
         .collect();
-    let k = dim as f64;
     let n_data = density.n_data();
     let mut notes = Vec::new();
     if model == VelocityModel::Yukawa {
@@ -452,14 +418,15 @@ pub fn fit_population<O: Observer>(
             outcome.tau_max()
         ));
     }
+    let (aic, bic) = information_criteria(dim, n_data, log_likelihood_max);
     Ok(PopulationFit {
         model,
         treatment,
         formula: model.formula().to_string(),
         parameters: fitted,
         log_likelihood_max,
-        aic: 2.0 * k - 2.0 * log_likelihood_max,
-        bic: k * (n_data as f64).ln() - 2.0 * log_likelihood_max,
+        aic,
+        bic,
         n_parameters: dim,
         n_data,
         converged: outcome.converged,
