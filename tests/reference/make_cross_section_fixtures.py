@@ -5,7 +5,7 @@ Writes tests/reference/fixtures/cross_section_scipy.json, which tests/cross_sect
 compares to. CI re-runs this script before the tests, so the fixture always comes from scipy.
 
 1. sigma(v)/m and its Maxwellian average <sigma v>/m for the fall-off, Yukawa (Born transfer) and
-   s-wave resonance (+ background) models of physics.md, by scipy.integrate.quad over the relative
+   s-wave resonance (+ background) models of crates/physics/src/cross_section.rs, by scipy.integrate.quad over the relative
    speed v with f(v) = v^2 exp(-v^2 / (4 sigma0^2)) / (2 sqrt(pi) sigma0^3), epsrel 1e-12.
    Unit conversions from astropy.constants / astropy.units.
 2. The kernel density estimate the population likelihood uses: scipy.stats.gaussian_kde with the

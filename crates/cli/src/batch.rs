@@ -15,8 +15,8 @@ use anyhow::{Context, bail};
 use caldera_data::session::{HaloModel, save_session};
 use caldera_data::{GalaxyTable, ReadOptions, load_catalogue, write_atomic};
 use caldera_infer::layout::ParamSpec;
-use caldera_infer::run_folder::{GALAXIES_DIR, RunFolder};
 use caldera_infer::model::GalaxyModel;
+use caldera_infer::run_folder::{GALAXIES_DIR, RunFolder};
 use caldera_infer::sampler::{Control, Progress};
 use caldera_infer::session::Session;
 use caldera_infer::{FitConfig, FitResult, fit_galaxy};
@@ -305,8 +305,14 @@ fn write_job(
                 .collect(),
         };
         for extension in ["svg", "png"] {
-            save_figure(&curve, &run.curve_figure_path(&job.slug, job.model, extension))?;
-            save_figure(&corner, &run.corner_figure_path(&job.slug, job.model, extension))?;
+            save_figure(
+                &curve,
+                &run.curve_figure_path(&job.slug, job.model, extension),
+            )?;
+            save_figure(
+                &corner,
+                &run.corner_figure_path(&job.slug, job.model, extension),
+            )?;
         }
     }
     let summary = serde_json::to_string_pretty(&result.summary)? + "\n";

@@ -13,10 +13,10 @@ use caldera_infer::population::{
     effective_sigma_m_cm2_g, fit_population, load_folder_posteriors, preferred_by_aic,
     preferred_by_bic,
 };
+use caldera_infer::run_folder::RunFolder;
 use caldera_infer::sampler::Silent;
 use caldera_infer::session::Session;
 use caldera_infer::summary::Interval;
-use caldera_infer::run_folder::RunFolder;
 use caldera_physics::cross_section::dispersion_from_mean_relative_speed_kms;
 use caldera_physics::units::BARN_PER_GEV_PER_CM2_PER_G;
 use caldera_physics::{CrossSection, CrossSectionKind};
@@ -529,10 +529,7 @@ pub(crate) fn run(args: &PopulationArgs, verbosity: Verbosity) -> anyhow::Result
         settings,
     };
 
-    let out = args
-        .out
-        .clone()
-        .unwrap_or_else(|| run.population_dir());
+    let out = args.out.clone().unwrap_or_else(|| run.population_dir());
     std::fs::create_dir_all(&out).with_context(|| format!("cannot create {}", out.display()))?;
     let json = serde_json::to_string_pretty(&report)? + "\n";
     write_atomic(&out.join("population.json"), json.as_bytes())?;

@@ -20,7 +20,7 @@ fn number(v: &Value, key: &str) -> f64 {
 
 #[test]
 fn sidm_core_first_json_matches_the_reference_table() {
-    // Reference: physics reference core-first table (scipy): ρ0 = 1e8, σ0 = 40, σ/m = 3 →
+    // Reference: tests/reference/check_values.md, core-first table (scipy): ρ0 = 1e8, σ0 = 40, σ/m = 3 →
     // r1 = 6.1868 kpc, ρ_s = 7.4295e7 Msun/kpc³, r_s = 2.1559 kpc.
     let v = json(&[
         "curve",
@@ -48,7 +48,7 @@ fn sidm_core_first_json_matches_the_reference_table() {
 
 #[test]
 fn sidm_halo_first_json_matches_the_reference_table() {
-    // Reference: physics reference halo-first table (scipy): M200 = 1e11, c = 10, σ/m = 3, no
+    // Reference: tests/reference/check_values.md, halo-first table (scipy): M200 = 1e11, c = 10, σ/m = 3, no
     // baryons → ρ0 = 1.63902e7, σ0 = 49.6840, r1 = 10.01079; V200 = 10 H0 r200 for that halo.
     let r200_kpc = (3.0 * 1e11 / (4.0 * std::f64::consts::PI * 200.0 * 135.99295)).cbrt();
     let v200 = format!("{}", 10.0 * 0.07 * r200_kpc);
@@ -69,7 +69,7 @@ fn sidm_halo_first_json_matches_the_reference_table() {
     assert!((number(&v, "sigma0_kms") / 49.6840 - 1.0).abs() < 1e-4);
     assert!((number(&v, "r1_kpc") / 10.01079 - 1.0).abs() < 1e-4);
     assert_eq!(v["branch"].as_u64(), Some(0));
-    // V_halo(0.5, 1, 2, 5 kpc) = 8.554, 16.883, 32.125, 61.834 km/s (physics reference).
+    // V_halo(0.5, 1, 2, 5 kpc) = 8.554, 16.883, 32.125, 61.834 km/s (tests/reference/check_values.md).
     let curve: Vec<f64> = v["v_halo_kms"]
         .as_array()
         .expect("array")

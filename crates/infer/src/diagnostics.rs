@@ -3,7 +3,7 @@
 use rustfft::FftPlanner;
 use rustfft::num_complex::Complex;
 
-use crate::sampler::ChainStore;
+use crate::chain::ChainStore;
 
 /// Normalised autocorrelation function of a series, by FFT (zero-padded to avoid wrap-around).
 #[must_use]
@@ -53,16 +53,27 @@ pub fn integrated_autocorr_times(chain: &ChainStore, start: usize) -> Vec<f64> {
                     *m += a / chain.n_walkers as f64;
                 }
             }
-            let mut tau = 1.0;
-            for (lag, rho) in mean_acf.iter().enumerate().skip(1) {
-                tau += 2.0 * rho;
-                if lag as f64 >= 5.0 * tau {
-                    return tau;
-                }
-            }
-            tau
+            integrated_time(&mean_acf)
         })
         .collect()
+}
+
+/// Sokal window constant c: the window M is the smallest lag with M ≥ c τ(M) (common practice).
+pub const SOKAL_WINDOW: f64 = 5.0;
+
+/// The integrated autocorrelation time τ(M) = 1 + 2 Σ_{t=1}^{M} ρ(t) of a normalised
+/// autocorrelation function `acf`, at the smallest window M with M ≥ [`SOKAL_WINDOW`] τ(M)
+/// (Sokal 1997), or over the whole function when no lag satisfies it.
+#[must_use]
+pub fn integrated_time(acf: &[f64]) -> f64 {
+    let mut tau = 1.0;
+    for (lag, rho) in acf.iter().enumerate().skip(1) {
+        tau += 2.0 * rho;
+        if lag as f64 >= SOKAL_WINDOW * tau {
+            return tau;
+        }
+    }
+    tau
 }
 
 /// Split-R̂ of each parameter over the kept steps (Gelman et al. 2013, BDA3 §11.4): every walker's
@@ -128,13 +139,7 @@ mod tests {
         let mut planner = FftPlanner::new();
         let acf = autocorrelation(&series, &mut planner);
         assert!((acf[1] - phi).abs() < 0.01);
-        let mut tau = 1.0;
-        for (lag, rho) in acf.iter().enumerate().skip(1) {
-            tau += 2.0 * rho;
-            if lag as f64 >= 5.0 * tau {
-                break;
-            }
-        }
+        let tau = integrated_time(&acf);
         let expected = (1.0 + phi) / (1.0 - phi);
         assert!(
             (tau / expected - 1.0).abs() < 0.05,

@@ -14,9 +14,9 @@ use crate::diagnostics::split_rhat;
 use crate::layout::ParamSpec;
 use crate::model::{DERIVED_NAMES, Derived, Evaluation, FailureSummary, GalaxyModel};
 use crate::optimize::maximum_a_posteriori;
+use crate::pipeline::{SamplingPlan, bounded_interval, information_criteria, sample_around};
 use crate::priors::Priors;
 use crate::sampler::{ChainStore, LogDensity, MoveMix, Observer, RunConfig};
-use crate::pipeline::{SamplingPlan, bounded_interval, information_criteria, sample_around};
 use crate::summary::{Interval, interval};
 
 /// Everything that controls a fit (saved with a session).

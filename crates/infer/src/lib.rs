@@ -2,6 +2,7 @@
 //! sampler, chain diagnostics and summaries.
 
 pub mod calibration;
+pub mod chain;
 pub mod diagnostics;
 mod error;
 pub mod fit;
@@ -10,8 +11,8 @@ pub mod model;
 pub mod optimize;
 pub mod pipeline;
 pub mod population;
-pub mod run_folder;
 pub mod priors;
+pub mod run_folder;
 pub mod sampler;
 pub mod session;
 pub mod summary;

@@ -2,7 +2,7 @@
 //!
 //! Likelihood: Gaussian in the velocity residuals,
 //! ln L = −½ Σ ((V_obs,i − V_model,i)/σ_i)² − Σ ln σ_i − (N/2) ln 2π,
-//! with σ_i² = err_i² + floor². Nuisance parameters rescale the data (physics reference):
+//! with σ_i² = err_i² + floor². Nuisance parameters rescale the data (tests/reference/check_values.md):
 //! distance D scales radii (r ∝ D) and baryonic velocities (V_b ∝ √D); inclination i scales the
 //! observed velocities and their errors by sin(i_table)/sin(i). The model is
 //! V_model² = V_halo²(r) + V_b²(r), with V_b² signed. A model that cannot be built (no isothermal

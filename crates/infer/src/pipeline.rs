@@ -78,7 +78,10 @@ pub fn sample_around<D: LogDensity, O: Observer>(
         initial.push(placed);
     }
     let state = EnsembleState::new(density, initial, plan.seed)?;
-    Ok((run(density, plan.moves, state, plan.run, observer), n_walkers))
+    Ok((
+        run(density, plan.moves, state, plan.run, observer),
+        n_walkers,
+    ))
 }
 
 /// The summary of a bounded coordinate's posterior from its samples' physical `values`, with the

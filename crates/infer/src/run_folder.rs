@@ -161,9 +161,9 @@ impl RunFolder {
             return Ok(None);
         }
         let text = std::fs::read_to_string(&path).map_err(|e| io_error(&path, e))?;
-        serde_json::from_str(&text)
-            .map(Some)
-            .map_err(|e| InferError::Config(format!("{} is not a fit summary: {e}", path.display())))
+        serde_json::from_str(&text).map(Some).map_err(|e| {
+            InferError::Config(format!("{} is not a fit summary: {e}", path.display()))
+        })
     }
 
     /// Every finished fit's summary, sorted by galaxy, then model name.
@@ -203,7 +203,10 @@ mod tests {
             run.corner_figure_path("a", HaloModel::PseudoIsothermal, "png"),
             PathBuf::from("/tmp/run/galaxies/a/pseudo-iso.corner.png")
         );
-        assert_eq!(run.results_path("tex"), PathBuf::from("/tmp/run/results.tex"));
+        assert_eq!(
+            run.results_path("tex"),
+            PathBuf::from("/tmp/run/results.tex")
+        );
         assert_eq!(run.session_path(), PathBuf::from("/tmp/run/session.ron"));
         assert_eq!(run.population_dir(), PathBuf::from("/tmp/run/population"));
     }

@@ -14,6 +14,7 @@ use rand_xoshiro::Xoshiro256PlusPlus;
 use rayon::prelude::*;
 
 use crate::InferError;
+pub use crate::chain::ChainStore;
 use crate::diagnostics::integrated_autocorr_times;
 
 /// A log-probability density on R^dim (up to a constant), with derived quantities ("blobs")
@@ -261,83 +262,6 @@ impl EnsembleState {
     }
 }
 
-/// The stored chain: for every step and walker, the position, log-density and derived values.
-#[derive(Debug, Clone, Default)]
-pub struct ChainStore {
-    pub n_walkers: usize,
-    pub n_dim: usize,
-    pub n_derived: usize,
-    positions: Vec<f64>,
-    log_densities: Vec<f64>,
-    derived: Vec<f64>,
-}
-
-impl ChainStore {
-    /// An empty chain for this ensemble shape.
-    #[must_use]
-    pub fn new(n_walkers: usize, n_dim: usize, n_derived: usize) -> Self {
-        Self {
-            n_walkers,
-            n_dim,
-            n_derived,
-            ..Self::default()
-        }
-    }
-
-    /// Appends the ensemble's current state.
-    pub fn record(&mut self, state: &EnsembleState) {
-        for w in &state.walkers {
-            self.positions.extend_from_slice(&w.position);
-            self.log_densities.push(w.log_density);
-            self.derived.extend_from_slice(&w.derived);
-        }
-    }
-
-    /// Number of recorded steps.
-    #[must_use]
-    pub fn steps(&self) -> usize {
-        self.log_densities
-            .len()
-            .checked_div(self.n_walkers)
-            .unwrap_or(0)
-    }
-
-    /// Parameter `param` of walker `walker` at `step`.
-    #[must_use]
-    pub fn position(&self, step: usize, walker: usize, param: usize) -> f64 {
-        self.positions[(step * self.n_walkers + walker) * self.n_dim + param]
-    }
-
-    /// Derived quantity `index` of walker `walker` at `step`.
-    #[must_use]
-    pub fn derived(&self, step: usize, walker: usize, index: usize) -> f64 {
-        self.derived[(step * self.n_walkers + walker) * self.n_derived + index]
-    }
-
-    /// Log-density of walker `walker` at `step`.
-    #[must_use]
-    pub fn log_density(&self, step: usize, walker: usize) -> f64 {
-        self.log_densities[step * self.n_walkers + walker]
-    }
-
-    /// The series of one parameter for one walker from step `start` on.
-    #[must_use]
-    pub fn walker_series(&self, walker: usize, param: usize, start: usize) -> Vec<f64> {
-        (start..self.steps())
-            .map(|s| self.position(s, walker, param))
-            .collect()
-    }
-
-    /// Every (step, walker) pair kept after discarding `burn` steps and keeping one step in
-    /// `thin`.
-    pub fn kept(&self, burn: usize, thin: usize) -> impl Iterator<Item = (usize, usize)> + '_ {
-        let thin = thin.max(1);
-        (burn.min(self.steps())..self.steps())
-            .step_by(thin)
-            .flat_map(move |s| (0..self.n_walkers).map(move |w| (s, w)))
-    }
-}
-
 /// What the observer sees after each step.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Progress {
@@ -463,7 +387,12 @@ pub fn run<D: LogDensity, M: Move, O: Observer>(
     let mut target_steps = None;
     while state.step < config.max_steps {
         state.advance(density, mv);
-        chain.record(&state);
+        chain.record_step(
+            state
+                .walkers
+                .iter()
+                .map(|w| (w.position.as_slice(), w.log_density, w.derived.as_slice())),
+        );
         let check = state.step.is_multiple_of(config.check_every.max(1))
             && state.step >= config.min_steps.min(config.max_steps);
         if check {

@@ -81,11 +81,10 @@ impl Session {
         self.results
             .retain(|r| !(r.galaxy == summary.galaxy && r.model == summary.model));
         self.results.push(summary);
-        self.results
-            .sort_by(|a, b| {
-                a.galaxy
-                    .cmp(&b.galaxy)
-                    .then_with(|| a.model.name().cmp(b.model.name()))
-            });
+        self.results.sort_by(|a, b| {
+            a.galaxy
+                .cmp(&b.galaxy)
+                .then_with(|| a.model.name().cmp(b.model.name()))
+        });
     }
 }

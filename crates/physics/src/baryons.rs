@@ -477,7 +477,7 @@ mod tests {
     #[test]
     fn exponential_disk_matches_scipy_values() {
         // Reference: Freeman (1970) disk; values in units of sqrt(G M_d / R_d) from scipy
-        // (shared physics reference): V(1, 2, 3, 5, 10 R_d).
+        // (tests/reference/check_values.md): V(1, 2, 3, 5, 10 R_d).
         let disk = ExponentialDisk::new(1.0 / G_KPC_KMS2_PER_MSUN, 1.0).expect("valid disk");
         let expected = [
             (1.0, 0.527218),
@@ -495,7 +495,7 @@ mod tests {
 
     #[test]
     fn exponential_disk_peak_matches_scipy() {
-        // Reference: peak at R = 2.1501 R_d with V² = 0.38705 G M_d / R_d (scipy, physics reference).
+        // Reference: peak at R = 2.1501 R_d with V² = 0.38705 G M_d / R_d (scipy; tests/reference/check_values.md).
         let disk = ExponentialDisk::new(1.0 / G_KPC_KMS2_PER_MSUN, 1.0).expect("valid disk");
         let (mut best_r, mut best_v2) = (0.0, 0.0);
         for i in 1..=40000 {

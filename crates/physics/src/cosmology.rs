@@ -91,7 +91,7 @@ mod tests {
 
     #[test]
     fn critical_density_matches_astropy() {
-        // Reference: 3H0²/(8πG) for H0 = 70 km/s/Mpc, astropy (physics reference).
+        // Reference: 3H0²/(8πG) for H0 = 70 km/s/Mpc, astropy (tests/reference/check_values.md).
         assert_relative_eq!(
             Cosmology::default().critical_density_msun_kpc3(),
             135.99295,
@@ -102,7 +102,7 @@ mod tests {
     #[test]
     fn dutton_maccio_matches_published_check_values() {
         // Reference: Dutton & Macciò (2014) with h = 0.7: c200 = 13.263 at 1e10 Msun, 8.330 at
-        // 1e12 Msun (physics reference).
+        // 1e12 Msun (tests/reference/check_values.md).
         let cosmo = Cosmology::default();
         assert_relative_eq!(cosmo.dutton_maccio_c200(1e10), 13.263, max_relative = 1e-4);
         assert_relative_eq!(cosmo.dutton_maccio_c200(1e12), 8.330, max_relative = 1e-4);

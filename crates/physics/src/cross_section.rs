@@ -637,7 +637,7 @@ mod tests {
 
     #[test]
     fn constant_average_matches_scipy() {
-        // Reference: physics reference (scipy): σ/m = 3 cm²/g, σ0 = 50 km/s →
+        // Reference: tests/reference/check_values.md (scipy): σ/m = 3 cm²/g, σ0 = 50 km/s →
         // ⟨v⟩ = 112.837917 km/s, ⟨σv⟩/m = 338.51375 cm²/g·km/s.
         let xs = CrossSection::constant(3.0).expect("valid");
         assert_relative_eq!(
@@ -654,7 +654,7 @@ mod tests {
 
     #[test]
     fn fall_off_average_matches_scipy() {
-        // Reference: physics reference (scipy): σ(v)/m = 10/(1+v²/w²)² cm²/g, w = 100 km/s →
+        // Reference: tests/reference/check_values.md (scipy): σ(v)/m = 10/(1+v²/w²)² cm²/g, w = 100 km/s →
         // ⟨σv⟩/m = 194.951, 217.433, 95.3631, 11.5241, 0.626798 cm²/g·km/s at σ0 = 10, 50, 100,
         // 300, 1000 km/s. Tolerance 1e-5 (values quoted to six figures).
         let xs = CrossSection::fall_off(10.0, 100.0).expect("valid");
@@ -686,7 +686,7 @@ mod tests {
 
     #[test]
     fn yukawa_born_transfer_matches_scipy() {
-        // Reference: physics reference (scipy, (ħc)² = 0.389379 mb GeV²): α = 1e-5, m = 10 GeV,
+        // Reference: tests/reference/check_values.md (scipy, (ħc)² = 0.389379 mb GeV²): α = 1e-5, m = 10 GeV,
         // m_φ = 1 MeV → σ_T/m = 2.74482, 2.38316, 0.0699671, 2.66781e-5 cm²/g at v → 0, 10, 100,
         // 1000 km/s.
         let xs = CrossSection::yukawa(10.0, 1.0, 1e-5).expect("valid");
@@ -702,7 +702,7 @@ mod tests {
 
     #[test]
     fn resonance_reaches_unitarity_at_its_speed_and_falls_as_v_to_the_minus_four() {
-        // Reference: physics reference: at v = v_R the s-wave resonance reaches 16π/(m² v_R²);
+        // Reference: tests/reference/check_values.md: at v = v_R the s-wave resonance reaches 16π/(m² v_R²);
         // far above it falls as v⁻⁴.
         let (m, delta, gamma) = (20.0, 1e-7, 1e-4);
         let xs = CrossSection::resonance(m, delta, gamma, 0.0).expect("valid");

@@ -382,7 +382,7 @@ mod tests {
     #[test]
     fn nfw_worked_example_matches_scipy() {
         // Reference: NFW (1997) with Δ = 200 ρ_crit, H0 = 70; worked example M200 = 1e12 Msun,
-        // c = 10 computed with scipy (physics reference).
+        // c = 10 computed with scipy (tests/reference/check_values.md).
         let cosmo = Cosmology::default();
         let halo = Nfw::from_m200_c200(1e12, 10.0, &cosmo).expect("valid");
         let virial = halo.virial(&cosmo).expect("virial");
@@ -408,7 +408,7 @@ mod tests {
     #[test]
     fn nfw_peak_ratio_matches_scipy() {
         // Reference: V_max at 2.16258 r_s; V_max/V200 = 1.06206 (c=5), 1.20511 (c=10),
-        // 1.43769 (c=20) (scipy, physics reference).
+        // 1.43769 (c=20) (scipy; tests/reference/check_values.md).
         let cosmo = Cosmology::default();
         for (c, ratio) in [(5.0, 1.06206), (10.0, 1.20511), (20.0, 1.43769)] {
             let halo = Nfw::from_v200_c200(100.0, c, &cosmo).expect("valid");
@@ -510,6 +510,17 @@ mod tests {
                     / ((1.0 + e).ln() - (1.0 - e).ln())
             };
             assert_relative_eq!(slope(halo.r_minus2_kpc), -2.0, max_relative = 1e-6);
+        }
+    }
+
+    #[test]
+    fn einasto_matches_the_published_check_values() {
+        // Reference: tests/reference/check_values.md (Einasto, scipy 1.17 gammainc): V200 = 100
+        // km/s, c200 = 10, α = 0.18, H0 = 70 → V_c(1, 5, 20 kpc) = 53.682638, 93.868721,
+        // 117.680827 km/s. Tolerance 1e-7 relative (the values are quoted to 8 digits).
+        let halo = Einasto::from_v200_c200(100.0, 10.0, 0.18, &Cosmology::default()).expect("halo");
+        for (r, v) in [(1.0, 53.682638), (5.0, 93.868721), (20.0, 117.680827)] {
+            assert_relative_eq!(halo.v_circ_kms(r), v, max_relative = 1e-7);
         }
     }
 }

@@ -198,7 +198,7 @@ mod tests {
     fn bessel_products_match_tabulated_values() {
         // Reference: Abramowitz & Stegun Table 9.8 values I0(1) = 1.266066, K0(1) = 0.421024,
         // I1(1) = 0.565159, K1(1) = 0.601907 (from memory). The exponential-disk velocities in
-        // the physics reference (scipy) check the whole range in `baryons.rs`.
+        // the tests/reference/check_values.md (scipy) check the whole range in `baryons.rs`.
         let expected = 1.266066 * 0.421024 - 0.565159 * 0.601907;
         approx::assert_relative_eq!(freeman_bessel_factor(1.0), expected, max_relative = 2e-5);
     }

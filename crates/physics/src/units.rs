@@ -6,8 +6,8 @@
 
 /// Newton's constant in kpc (km/s)² / Msun.
 ///
-/// Source: astropy.constants (CODATA 2018 G, IAU 2015 nominal solar mass), as tabulated in the
-/// project's physics reference.
+/// Source: astropy.constants (CODATA 2018 G, IAU 2015 nominal solar mass), as tabulated in
+/// tests/reference/check_values.md.
 pub const G_KPC_KMS2_PER_MSUN: f64 = 4.300917270e-6;
 
 /// One cm²/g expressed in kpc²/Msun.
@@ -71,7 +71,7 @@ mod tests {
 
     #[test]
     fn constants_match_the_physics_reference() {
-        // Reference: astropy.constants / astropy.units values quoted in shared physics.md.
+        // Reference: astropy.constants / astropy.units values as tabulated in tests/reference/check_values.md.
         approx::assert_relative_eq!(G_KPC_KMS2_PER_MSUN, 4.300917270e-6, max_relative = 1e-12);
         approx::assert_relative_eq!(cm2_per_g_to_kpc2_per_msun(1.0), 2.088357373e-10);
         approx::assert_relative_eq!(gyr_to_kpc_per_kms(0.9777922217), 1.0);

@@ -22,10 +22,10 @@ use caldera_physics::cross_section::{dispersion_from_mean_relative_speed_kms, me
 use caldera_physics::{HaloModel, ParamId, Transform};
 
 use crate::InferError;
-use crate::run_folder::RunFolder;
 use crate::optimize::{MapEstimate, multistart_nelder_mead};
 use crate::pipeline::{SamplingPlan, bounded_interval, information_criteria, sample_around};
 use crate::priors::CrossSectionPrior;
+use crate::run_folder::RunFolder;
 use crate::sampler::{MoveMix, Observer, RunConfig};
 use crate::summary::{Interval, quantile};
 
@@ -393,7 +393,7 @@ pub fn fit_population<O: Observer>(
     let n_data = density.n_data();
     let mut notes = Vec::new();
     if model == VelocityModel::Yukawa {
-        // Born regime: α m_χ / m_φ ≪ 1 (physics.md).
+        // Born regime: α m_χ / m_φ ≪ 1 (Feng, Kaplinghat & Yu 2010; Tulin, Yu & Zurek 2013).
         let born: Vec<f64> = {
             let mut v: Vec<f64> = samples
                 .iter()

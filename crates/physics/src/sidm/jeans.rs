@@ -304,7 +304,7 @@ mod tests {
     #[test]
     fn isothermal_sphere_matches_scipy_table() {
         // Reference: isothermal sphere ρ/ρ0 at ξ = 1, 2, 3, 5, 10, 20, 50 (scipy, rtol 1e-12;
-        // ψ(1) agrees with Chandrasekhar's 1939 table, from memory) — physics reference.
+        // ψ(1) agrees with Chandrasekhar's 1939 table, from memory) — tests/reference/check_values.md.
         let problem = JeansProblem::new(1e7, 30.0, &NoBaryons);
         let mut grid = GridSolution::empty();
         let crossing = problem
@@ -381,7 +381,7 @@ mod tests {
     fn baryon_dominated_limit_matches_analytic_profile() {
         // Reference: Kaplinghat, Keeley, Linden & Yu (2014): when the dark matter's own gravity is
         // negligible, ρ/ρ0 = exp[−(GM/σ0²)(1/a − 1/(r+a))] for a Hernquist potential. Check values
-        // for M = 1e10, a = 1 kpc, σ0 = 100 km/s, ρ0 = 1 Msun/kpc³ (physics reference).
+        // for M = 1e10, a = 1 kpc, σ0 = 100 km/s, ρ0 = 1 Msun/kpc³ (tests/reference/check_values.md).
         let bulge = Hernquist::new(1e10, 1.0).expect("valid");
         let problem = JeansProblem::new(1.0, 100.0, &bulge);
         let mut grid = GridSolution::empty();

@@ -13,7 +13,7 @@ fn setup(sigma_m: f64, baryons: &dyn EnclosedMass) -> SidmSetup<'_> {
 
 #[test]
 fn core_first_matches_scipy_reference_table() {
-    // Reference: physics reference, core-first table from an independent scipy implementation
+    // Reference: tests/reference/check_values.md, core-first table from an independent scipy implementation
     // (no baryons, t_age = 10 Gyr).
     for (rho0, sigma0, sigma_m, r1, rho_s, r_s) in [
         (1e8, 40.0, 3.0, 6.1868, 7.4295e7, 2.1559),
@@ -30,7 +30,7 @@ fn core_first_matches_scipy_reference_table() {
 
 #[test]
 fn halo_first_matches_scipy_reference_table() {
-    // Reference: physics reference, halo-first table (two independent scipy implementations
+    // Reference: tests/reference/check_values.md, halo-first table (two independent scipy implementations
     // agree to ~1e-6): M200 = 1e11 Msun, c = 10, H0 = 70, t_age = 10 Gyr.
     let cosmo = Cosmology::default();
     let nfw = Nfw::from_m200_c200(1e11, 10.0, &cosmo).expect("valid");
@@ -88,7 +88,7 @@ fn halo_first_matches_scipy_reference_table() {
 
 #[test]
 fn halo_first_velocities_match_scipy() {
-    // Reference: physics reference: σ/m = 3, no baryons, M200 = 1e11, c = 10.
+    // Reference: tests/reference/check_values.md: σ/m = 3, no baryons, M200 = 1e11, c = 10.
     let cosmo = Cosmology::default();
     let nfw = Nfw::from_m200_c200(1e11, 10.0, &cosmo).expect("valid");
     let halo = halo_first(&setup(3.0, &NoBaryons), &nfw, Branch::LowestDensity).expect("solves");
@@ -105,7 +105,7 @@ fn halo_first_velocities_match_scipy() {
 
 #[test]
 fn halo_first_reports_no_solution() {
-    // Reference: physics reference: no solution for σ/m = 100 without baryons, nor for σ/m = 3
+    // Reference: tests/reference/check_values.md: no solution for σ/m = 100 without baryons, nor for σ/m = 3
     // with a Hernquist M = 5e9, a = 1 kpc.
     let cosmo = Cosmology::default();
     let nfw = Nfw::from_m200_c200(1e11, 10.0, &cosmo).expect("valid");
@@ -122,7 +122,7 @@ fn halo_first_reports_no_solution() {
 
 #[test]
 fn halo_first_finds_three_solutions_for_the_reference_halo() {
-    // Reference: physics reference: the NFW halo matched by (ρ0, σ0) = (7e7, 35) with σ/m = 2,
+    // Reference: tests/reference/check_values.md: the NFW halo matched by (ρ0, σ0) = (7e7, 35) with σ/m = 2,
     // 10 Gyr and no baryons is also matched by about (2.49e10, 40.74) and (2.60e11, 39.18).
     let s = setup(2.0, &NoBaryons);
     let start = core_first(&s, 7e7, 35.0).expect("solves");
