@@ -3,140 +3,30 @@
 
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
-use std::sync::mpsc::{Receiver, channel};
 
-use caldera_data::session::{GalaxySettings, HaloModel, load_session, save_session};
-use caldera_data::{
-    ColumnMapping, ColumnRole, DataError, GalaxyTable, ReadOptions, load_catalogue, read_table,
-    write_atomic,
+use caldera_data::session::{GalaxySettings, HaloModel, save_session};
+use caldera_data::{Catalogue, ColumnMapping, DataError, GalaxyTable, ReadOptions, write_atomic};
+use caldera_infer::population::{
+    GalaxyPosterior, PopulationFit, PopulationSettings, preferred_by_bic,
 };
-use caldera_infer::population::{PopulationFit, PopulationSettings, preferred_by_bic};
+use caldera_infer::run_folder::RunFolder;
 use caldera_infer::sampler::RunConfig;
 use caldera_infer::session::Session;
-use caldera_infer::{FitConfig, FitResult, FitSummary};
+use caldera_infer::{FitConfig, FitSummary};
 use caldera_report::figures::{RotationCurveFigure, save_figure};
 use caldera_report::tables::{latex_table, results_table};
-use egui::Color32;
 
-use crate::live::{LiveCurve, live_curve, settings_from_fit};
-use crate::population::{ParticleModel, PopulationInputs, PopulationJob};
-use crate::theme;
-use crate::worker::{FitJob, FitMessage};
-
-/// How the app starts.
-#[derive(Debug, Clone, PartialEq)]
-pub struct AppOptions {
-    /// A table or catalogue folder to open at start-up.
-    pub catalogue: Option<PathBuf>,
-    /// A session file to restore at start-up (takes precedence over `catalogue`).
-    pub session: Option<PathBuf>,
-    /// Where exports are written.
-    pub export_dir: PathBuf,
-    /// Step cap of fits started from the app.
-    pub fit_max_steps: usize,
-}
-
-impl Default for AppOptions {
-    fn default() -> Self {
-        Self {
-            catalogue: Some(PathBuf::from("demo_galaxies")),
-            session: None,
-            export_dir: PathBuf::from("caldera-exports"),
-            fit_max_steps: RunConfig::default().max_steps,
-        }
-    }
-}
-
-/// One loaded galaxy, or why it could not be loaded.
-pub struct GalaxyEntry {
-    pub path: PathBuf,
-    pub table: Result<GalaxyTable, String>,
-}
-
-impl GalaxyEntry {
-    pub(crate) fn name(&self) -> String {
-        match &self.table {
-            Ok(t) => t.meta.name.clone(),
-            Err(_) => self
-                .path
-                .file_stem()
-                .map_or_else(String::new, |s| s.to_string_lossy().into_owned()),
-        }
-    }
-}
-
-/// Columns of the catalogue list that can sort it.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum SortKey {
-    Name,
-    VMax,
-    Points,
-    SigmaM,
-}
-
-/// The main view.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum View {
-    Galaxy,
-    Population,
-}
-
-/// What the panels ask for; applied after the frame is drawn.
-#[derive(Debug, Clone, PartialEq)]
-pub enum Command {
-    Select(usize),
-    Settings(GalaxySettings),
-    Fit(Vec<HaloModel>),
-    CancelFit,
-    UseBestFit,
-    ExportResults(&'static str),
-    ExportFigure(&'static str),
-    SaveSession,
-    OpenDialog,
-    OpenPath(PathBuf),
-    LoadWithMapping,
-    SetView(View),
-    Sort(SortKey),
-    QuitWithoutSaving,
-    SaveAndQuit,
-    Particle(ParticleModel),
-    FitPopulation,
-}
-
-/// A table waiting for the user to confirm its column roles.
-pub(crate) struct MappingStep {
-    pub(crate) path: PathBuf,
-    pub(crate) message: String,
-    pub(crate) roles: BTreeMap<ColumnRole, String>,
-}
-
-/// Runtime handles and caches: never saved.
-pub(crate) struct Runtime {
-    pub(crate) options: AppOptions,
-    pub(crate) galaxies: Vec<GalaxyEntry>,
-    pub(crate) selected: Option<usize>,
-    pub(crate) live: Option<LiveCurve>,
-    pub(crate) live_error: Option<String>,
-    pub(crate) live_key: Option<(usize, GalaxySettings)>,
-    pub(crate) last_valid: Option<LiveCurve>,
-    /// The SIDM core (ρ0, σ0) the next live curve should follow (a best fit's branch).
-    pub(crate) core_hint: Option<(f64, f64)>,
-    pub(crate) fit: Option<FitJob>,
-    pub(crate) fits: BTreeMap<(String, HaloModel), FitResult>,
-    pub(crate) messages: Vec<(Color32, String)>,
-    pub(crate) sort: SortKey,
-    pub(crate) view: View,
-    pub(crate) dirty: bool,
-    pub(crate) confirm_quit: bool,
-    pub(crate) allowed_to_close: bool,
-    pub(crate) session_path: Option<PathBuf>,
-    pub(crate) dialog: Option<Receiver<Option<PathBuf>>>,
-    pub(crate) mapping: Option<MappingStep>,
-    pub(crate) particle: ParticleModel,
-    pub(crate) population_job: Option<PopulationJob>,
-    pub(crate) population: Option<Vec<PopulationFit>>,
-    pub(crate) population_inputs: Option<PopulationInputs>,
-}
+use crate::commands::Command;
+use crate::jobs::Job;
+use crate::live::{LiveCurve, LiveError, live_curve, settings_from_fit};
+use crate::population::{ParticleModel, PopulationInputs};
+use crate::state::{
+    AppOptions, GalaxyEntry, MappingStep, Message, MessageKind, Runtime, SortKey, View,
+};
+use crate::worker::{
+    start_catalogue_load, start_fit, start_folder_posteriors_load, start_population_fit,
+    start_session_load, start_table_load,
+};
 
 /// The app: the saved session and the runtime.
 pub struct CalderaApp {
@@ -180,8 +70,15 @@ impl CalderaApp {
                 mapping: None,
                 particle: ParticleModel::default(),
                 population_job: None,
+                population_partial: Vec::new(),
                 population: None,
                 population_inputs: None,
+                loading: None,
+                table_load: None,
+                session_load: None,
+                pending_selection: None,
+                folder_load: None,
+                folder_posteriors: None,
             },
         };
         if let Some(path) = options.session {
@@ -212,8 +109,8 @@ impl CalderaApp {
 
     /// Why there is no live curve, if there is none.
     #[must_use]
-    pub fn live_error(&self) -> Option<&str> {
-        self.runtime.live_error.as_deref()
+    pub fn live_error(&self) -> Option<&LiveError> {
+        self.runtime.live_error.as_ref()
     }
 
     /// True when a fit is running.
@@ -256,32 +153,44 @@ impl CalderaApp {
             .collect()
     }
 
-    fn say(&mut self, colour: Color32, text: impl Into<String>) {
-        self.runtime.messages.push((colour, text.into()));
+    fn say(&mut self, kind: MessageKind, text: impl Into<String>) {
+        self.runtime.messages.push(Message {
+            kind,
+            text: text.into(),
+        });
     }
 
+    /// Starts reading a table or catalogue folder off the UI thread.
     fn open_catalogue(&mut self, path: &Path, read: &ReadOptions) {
-        match load_catalogue(path, read) {
+        self.say(MessageKind::Info, format!("reading {}…", path.display()));
+        self.runtime.loading = Some(start_catalogue_load(path.to_path_buf(), read.clone()));
+    }
+
+    /// Takes a catalogue that has been read: its tables (a bad one kept with its error), the
+    /// warnings, and the first good galaxy selected.
+    fn finish_catalogue(
+        &mut self,
+        path: &Path,
+        read: &ReadOptions,
+        loaded: Result<Catalogue, DataError>,
+    ) {
+        match loaded {
             Ok(catalogue) => {
                 self.runtime.galaxies.clear();
                 self.runtime.fits.clear();
                 self.runtime.selected = None;
                 for w in &catalogue.warnings {
-                    self.say(theme::WARNING, format!("warning: {w}"));
+                    self.say(MessageKind::Warning, format!("warning: {w}"));
                 }
                 for entry in catalogue.entries {
                     match &entry.table {
                         Ok(t) => {
                             for w in &t.warnings {
-                                self.runtime
-                                    .messages
-                                    .push((theme::WARNING, format!("warning: {w}")));
+                                self.say(MessageKind::Warning, format!("warning: {w}"));
                             }
                         }
                         Err(e) => {
-                            self.runtime
-                                .messages
-                                .push((theme::ERROR, format!("error: {e}")));
+                            self.say(MessageKind::Error, format!("error: {e}"));
                             if matches!(
                                 e,
                                 DataError::MissingColumn { .. } | DataError::Malformed { .. }
@@ -297,18 +206,21 @@ impl CalderaApp {
                     }
                     self.runtime.galaxies.push(GalaxyEntry {
                         path: entry.path,
-                        table: entry.table.map_err(|e| e.to_string()),
+                        table: entry.table,
                     });
                 }
                 self.session.catalogue = Some(path.to_path_buf());
                 self.session.format = read.format;
                 self.session.column_mapping = read.mapping.clone();
+                let wanted = self.runtime.pending_selection.take();
+                let by_name =
+                    wanted.and_then(|name| self.galaxy_names().iter().position(|n| *n == name));
                 let first = self.runtime.galaxies.iter().position(|g| g.table.is_ok());
-                if let Some(i) = first {
+                if let Some(i) = by_name.or(first) {
                     self.select(i);
                 }
                 self.say(
-                    Color32::GRAY,
+                    MessageKind::Info,
                     format!(
                         "opened {} ({} galaxies)",
                         path.display(),
@@ -316,35 +228,48 @@ impl CalderaApp {
                     ),
                 );
             }
-            Err(e) => self.say(theme::ERROR, format!("error: {e}")),
+            Err(e) => self.say(MessageKind::Error, format!("error: {e}")),
         }
     }
 
+    /// Starts reading a session file off the UI thread.
     fn open_session(&mut self, path: &Path) {
-        match load_session::<Session>(path) {
+        self.runtime.session_load = Some(start_session_load(path.to_path_buf()));
+    }
+
+    /// Takes a session that has been read: its catalogue and run folder are read in turn.
+    fn finish_session(&mut self, path: &Path, loaded: Result<Session, DataError>) {
+        match loaded {
             Ok(session) => {
                 let read = ReadOptions {
                     format: session.format,
                     mapping: session.column_mapping.clone(),
                 };
-                let selected = session.selected.clone();
+                self.runtime.pending_selection = session.selected.clone();
                 if let Some(catalogue) = session.catalogue.clone() {
                     self.open_catalogue(&catalogue, &read);
                 }
                 self.session = session;
-                if let Some(name) = selected
-                    && let Some(i) = self.galaxy_names().iter().position(|n| *n == name)
-                {
-                    self.select(i);
-                }
                 self.runtime.session_path = Some(path.to_path_buf());
+                // A session saved by a catalogue run sits in its run folder: read the chains
+                // there for the population view, off the UI thread.
+                self.runtime.folder_posteriors = None;
+                if let Some(folder) = path.parent()
+                    && RunFolder::new(folder).exists()
+                {
+                    self.runtime.folder_load = Some(start_folder_posteriors_load(
+                        folder.to_path_buf(),
+                        self.session.fit.priors.cross_section,
+                        PopulationSettings::default().max_samples_per_galaxy,
+                    ));
+                }
                 self.runtime.dirty = false;
                 self.say(
-                    Color32::GRAY,
+                    MessageKind::Info,
                     format!("restored session {}", path.display()),
                 );
             }
-            Err(e) => self.say(theme::ERROR, format!("error: {e}")),
+            Err(e) => self.say(MessageKind::Error, format!("error: {e}")),
         }
     }
 
@@ -447,28 +372,207 @@ impl CalderaApp {
         }
     }
 
-    fn poll_population(&mut self) {
-        let Some(job) = &self.runtime.population_job else {
+    /// Recomputes [`PopulationInputs`] when the SIDM fits in memory or the run folder's
+    /// posteriors changed: fits made in this session first, then the chains of the catalogue-run
+    /// folder the session was opened from (already read off the UI thread).
+    pub(crate) fn refresh_population_inputs(&mut self) {
+        let folder_count = self
+            .runtime
+            .folder_posteriors
+            .as_ref()
+            .map_or(0, |(_, f)| f.posteriors.len());
+        let key = (
+            self.runtime
+                .fits
+                .iter()
+                .filter(|((_, model), _)| *model == HaloModel::Sidm)
+                .map(|((galaxy, _), fit)| (galaxy.clone(), fit.summary.n_samples))
+                .collect::<Vec<_>>(),
+            folder_count,
+        );
+        if self
+            .runtime
+            .population_inputs
+            .as_ref()
+            .is_some_and(|inputs| inputs.key == key)
+        {
             return;
-        };
-        let Ok(outcome) = job.receiver.try_recv() else {
-            return;
-        };
-        self.runtime.population_job = None;
-        match outcome {
-            Ok(fits) => {
-                if let Some(preferred) = preferred_by_bic(&fits) {
-                    self.say(
-                        theme::DATA,
-                        format!(
-                            "population fit: {} preferred (lowest BIC)",
-                            preferred.name()
-                        ),
-                    );
-                }
-                self.runtime.population = Some(fits);
+        }
+        let prior = self.session.fit.priors.cross_section;
+        let max = PopulationSettings::default().max_samples_per_galaxy;
+        let mut posteriors: Vec<(GalaxyPosterior, bool)> = Vec::new();
+        let mut problems = Vec::new();
+        for ((galaxy, model), fit) in &self.runtime.fits {
+            if *model != HaloModel::Sidm {
+                continue;
             }
-            Err(e) => self.say(theme::ERROR, format!("population fit failed: {e}")),
+            match GalaxyPosterior::from_fit(fit, &prior, max) {
+                Ok(p) => posteriors.push((p, fit.summary.converged)),
+                Err(e) => problems.push(format!("{galaxy}: {e}")),
+            }
+        }
+        if let Some((_, loaded)) = &self.runtime.folder_posteriors {
+            for (p, &converged) in loaded.posteriors.iter().zip(&loaded.converged) {
+                if !posteriors.iter().any(|(q, _)| q.galaxy == p.galaxy) {
+                    posteriors.push((p.clone(), converged));
+                }
+            }
+        }
+        posteriors.sort_by(|a, b| a.0.galaxy.cmp(&b.0.galaxy));
+        let (posteriors, converged) = posteriors.into_iter().unzip();
+        self.runtime.population_inputs = Some(PopulationInputs {
+            key,
+            posteriors,
+            converged,
+            problems,
+        });
+    }
+
+    /// Takes what the background jobs finished: a catalogue read, a run folder's posteriors,
+    /// fits, population fits, a file picked in the dialog.
+    fn poll_jobs(&mut self, ctx: &egui::Context) {
+        if let Some(job) = &mut self.runtime.loading {
+            let outputs = job.poll();
+            let done = job.is_done();
+            for (path, read, loaded) in outputs {
+                self.finish_catalogue(&path, &read, loaded);
+            }
+            if done {
+                self.runtime.loading = None;
+            }
+        }
+        if let Some(job) = &mut self.runtime.folder_load {
+            let outputs = job.poll();
+            let done = job.is_done();
+            for (folder, loaded) in outputs {
+                match loaded {
+                    Ok(posteriors) => {
+                        self.say(
+                            MessageKind::Info,
+                            format!(
+                                "read {} SIDM posteriors from {}",
+                                posteriors.posteriors.len(),
+                                folder.display()
+                            ),
+                        );
+                        self.runtime.folder_posteriors = Some((folder, posteriors));
+                    }
+                    Err(e) => self.say(MessageKind::Error, format!("error: {e}")),
+                }
+            }
+            if done {
+                self.runtime.folder_load = None;
+            }
+        }
+        if let Some(job) = &mut self.runtime.session_load {
+            let outputs = job.poll();
+            let done = job.is_done();
+            for (path, loaded) in outputs {
+                self.finish_session(&path, loaded);
+            }
+            if done {
+                self.runtime.session_load = None;
+            }
+        }
+        if let Some(job) = &mut self.runtime.table_load {
+            let outputs = job.poll();
+            let done = job.is_done();
+            for (path, read, loaded) in outputs {
+                self.finish_table_with_mapping(path, read, loaded);
+            }
+            if done {
+                self.runtime.table_load = None;
+            }
+        }
+        self.poll_worker();
+        self.poll_population();
+        if let Some(job) = &mut self.runtime.dialog {
+            let picked = job.poll().into_iter().flatten().next();
+            let done = job.is_done();
+            if done {
+                self.runtime.dialog = None;
+            }
+            if let Some(path) = picked {
+                self.apply(Command::OpenPath(path), ctx);
+            }
+        }
+    }
+
+    /// Takes a table re-read with the user's column mapping, or asks again with the error.
+    fn finish_table_with_mapping(
+        &mut self,
+        path: PathBuf,
+        read: ReadOptions,
+        loaded: Result<GalaxyTable, DataError>,
+    ) {
+        match loaded {
+            Ok(table) => {
+                let name = table.meta.name.clone();
+                if let Some(entry) = self.runtime.galaxies.iter_mut().find(|g| g.path == path) {
+                    entry.table = Ok(table);
+                }
+                self.session.column_mapping = read.mapping;
+                self.say(
+                    MessageKind::Info,
+                    format!("loaded {name} with the column mapping"),
+                );
+            }
+            Err(e) => {
+                self.runtime.mapping = Some(MappingStep {
+                    path,
+                    message: e.to_string(),
+                    roles: read.mapping,
+                });
+            }
+        }
+    }
+
+    /// Whether any background job runs (the window then keeps repainting to poll it).
+    #[must_use]
+    pub fn busy(&self) -> bool {
+        let r = &self.runtime;
+        r.fit.is_some()
+            || r.dialog.is_some()
+            || r.population_job.is_some()
+            || r.loading.is_some()
+            || r.folder_load.is_some()
+            || r.table_load.is_some()
+            || r.session_load.is_some()
+    }
+
+    fn poll_population(&mut self) {
+        let Some(job) = &mut self.runtime.population_job else {
+            return;
+        };
+        let outputs = job.poll();
+        let done = job.is_done();
+        let cancelled = job.cancel_requested();
+        for outcome in outputs {
+            match outcome {
+                Ok(fit) => self.runtime.population_partial.push(fit),
+                Err(e) => self.say(MessageKind::Error, format!("population fit failed: {e}")),
+            }
+        }
+        if !done {
+            return;
+        }
+        self.runtime.population_job = None;
+        let fits = std::mem::take(&mut self.runtime.population_partial);
+        if cancelled {
+            self.say(MessageKind::Warning, "population fit cancelled");
+            return;
+        }
+        if let Some(preferred) = preferred_by_bic(&fits) {
+            self.say(
+                MessageKind::Result,
+                format!(
+                    "population fit: {} preferred (lowest BIC)",
+                    preferred.name()
+                ),
+            );
+        }
+        if !fits.is_empty() {
+            self.runtime.population = Some(fits);
         }
     }
 
@@ -476,33 +580,25 @@ impl CalderaApp {
         let Some(job) = &mut self.runtime.fit else {
             return;
         };
-        let mut finished = Vec::new();
-        let mut done = false;
-        while let Ok(message) = job.receiver.try_recv() {
-            match message {
-                FitMessage::Progress { model, progress } => job.latest = Some((model, progress)),
-                FitMessage::Finished { model, result } => {
-                    finished.push((job.galaxy.clone(), model, result))
-                }
-                FitMessage::AllDone => done = true,
-            }
-        }
-        for (galaxy, model, result) in finished {
+        let finished = job.poll();
+        let done = job.is_done();
+        let galaxy = job.label.clone();
+        for (model, result) in finished {
             match result {
                 Ok(result) => {
                     if result.summary.cancelled {
                         self.say(
-                            theme::WARNING,
+                            MessageKind::Warning,
                             format!("fit of {galaxy} ({}) cancelled", model.name()),
                         );
                         continue;
                     }
                     self.session.store_result(result.summary.clone());
-                    self.runtime.fits.insert((galaxy, model), *result);
+                    self.runtime.fits.insert((galaxy.clone(), model), *result);
                     self.runtime.dirty = true;
                 }
                 Err(e) => self.say(
-                    theme::ERROR,
+                    MessageKind::Error,
                     format!("fit of {galaxy} ({}) failed: {e}", model.name()),
                 ),
             }
@@ -533,8 +629,7 @@ impl CalderaApp {
                     && let Ok(table) = &self.runtime.galaxies[i].table
                     && self.runtime.fit.is_none()
                 {
-                    self.runtime.fit =
-                        Some(FitJob::start(table.clone(), models, self.fit_config()));
+                    self.runtime.fit = Some(start_fit(table.clone(), models, self.fit_config()));
                 }
             }
             Command::CancelFit => {
@@ -557,7 +652,13 @@ impl CalderaApp {
                         seed: self.session.fit.seed,
                         ..PopulationSettings::default()
                     };
-                    self.runtime.population_job = Some(PopulationJob::start(posteriors, settings));
+                    self.runtime.population_partial.clear();
+                    self.runtime.population_job = Some(start_population_fit(posteriors, settings));
+                }
+            }
+            Command::CancelPopulationFit => {
+                if let Some(job) = &self.runtime.population_job {
+                    job.cancel();
                 }
             }
             Command::ExportResults(format) => self.export_results(format),
@@ -566,8 +667,7 @@ impl CalderaApp {
                 self.save_session();
             }
             Command::OpenDialog => {
-                let (sender, receiver) = channel();
-                std::thread::spawn(move || {
+                self.runtime.dialog = Some(Job::spawn("file dialog", |ctx| {
                     let picked = rfd::FileDialog::new()
                         .set_title("Open a galaxy table, a catalogue folder's table, or a session")
                         .add_filter(
@@ -575,9 +675,8 @@ impl CalderaApp {
                             &["ecsv", "csv", "dat", "txt", "tsv", "ron"],
                         )
                         .pick_file();
-                    let _ = sender.send(picked);
-                });
-                self.runtime.dialog = Some(receiver);
+                    ctx.output(picked);
+                }));
             }
             Command::OpenPath(path) => {
                 if path.extension().is_some_and(|e| e == "ron") {
@@ -597,31 +696,7 @@ impl CalderaApp {
                         format: None,
                         mapping,
                     };
-                    match read_table(&step.path, &read) {
-                        Ok(table) => {
-                            let name = table.meta.name.clone();
-                            if let Some(entry) = self
-                                .runtime
-                                .galaxies
-                                .iter_mut()
-                                .find(|g| g.path == step.path)
-                            {
-                                entry.table = Ok(table);
-                            }
-                            self.session.column_mapping = read.mapping;
-                            self.say(
-                                Color32::GRAY,
-                                format!("loaded {name} with the column mapping"),
-                            );
-                        }
-                        Err(e) => {
-                            self.runtime.mapping = Some(MappingStep {
-                                path: step.path,
-                                message: e.to_string(),
-                                roles: read.mapping,
-                            });
-                        }
-                    }
+                    self.runtime.table_load = Some(start_table_load(step.path, read));
                 }
             }
             Command::SetView(view) => self.runtime.view = view,
@@ -658,7 +733,7 @@ impl CalderaApp {
                 self.refresh_live();
             }
             Err(e) => self.say(
-                theme::ERROR,
+                MessageKind::Error,
                 format!("error: cannot load the best fit of {name}: {e}"),
             ),
         }
@@ -670,7 +745,7 @@ impl CalderaApp {
             Ok(()) => Some(dir),
             Err(e) => {
                 self.say(
-                    theme::ERROR,
+                    MessageKind::Error,
                     format!("error: cannot create {}: {e}", dir.display()),
                 );
                 None
@@ -683,22 +758,20 @@ impl CalderaApp {
         let rows = &self.session.results;
         let path = dir.join(format!("results.{format}"));
         let text = match format {
-            "csv" => results_table(rows).to_csv(&path).map_err(|e| e.to_string()),
-            "ecsv" => results_table(rows)
-                .to_ecsv(&path)
-                .map_err(|e| e.to_string()),
+            "csv" => results_table(rows).to_csv(&path),
+            "ecsv" => results_table(rows).to_ecsv(&path),
             _ => Ok(latex_table(rows)),
         };
-        match text.and_then(|t| write_atomic(&path, t.as_bytes()).map_err(|e| e.to_string())) {
-            Ok(()) => self.say(Color32::GRAY, format!("wrote {}", path.display())),
-            Err(e) => self.say(theme::ERROR, format!("error: {e}")),
+        match text.and_then(|t| write_atomic(&path, t.as_bytes())) {
+            Ok(()) => self.say(MessageKind::Info, format!("wrote {}", path.display())),
+            Err(e) => self.say(MessageKind::Error, format!("error: {e}")),
         }
     }
 
     fn export_figure(&mut self, format: &str) {
         let (Some(curve), Some(settings)) = (self.runtime.live.clone(), self.current_settings())
         else {
-            self.say(theme::WARNING, "no curve to export");
+            self.say(MessageKind::Warning, "no curve to export");
             return;
         };
         let Some(dir) = self.export_dir() else { return };
@@ -714,8 +787,8 @@ impl CalderaApp {
         );
         let path = dir.join(file);
         match save_figure(&figure, &path) {
-            Ok(()) => self.say(Color32::GRAY, format!("wrote {}", path.display())),
-            Err(e) => self.say(theme::ERROR, format!("error: {e}")),
+            Ok(()) => self.say(MessageKind::Info, format!("wrote {}", path.display())),
+            Err(e) => self.say(MessageKind::Error, format!("error: {e}")),
         }
     }
 
@@ -731,11 +804,14 @@ impl CalderaApp {
             Ok(()) => {
                 self.runtime.dirty = false;
                 self.runtime.session_path = Some(path.clone());
-                self.say(Color32::GRAY, format!("saved session {}", path.display()));
+                self.say(
+                    MessageKind::Info,
+                    format!("saved session {}", path.display()),
+                );
                 true
             }
             Err(e) => {
-                self.say(theme::ERROR, format!("error: {e}"));
+                self.say(MessageKind::Error, format!("error: {e}"));
                 false
             }
         }
@@ -745,18 +821,9 @@ impl CalderaApp {
 impl eframe::App for CalderaApp {
     fn ui(&mut self, ui: &mut egui::Ui, _frame: &mut eframe::Frame) {
         let ctx = ui.ctx().clone();
-        self.poll_worker();
-        self.poll_population();
+        self.poll_jobs(&ctx);
         if self.runtime.view == View::Population {
             self.refresh_population_inputs();
-        }
-        if let Some(receiver) = &self.runtime.dialog
-            && let Ok(picked) = receiver.try_recv()
-        {
-            self.runtime.dialog = None;
-            if let Some(path) = picked {
-                self.apply(Command::OpenPath(path), &ctx);
-            }
         }
         let dropped: Vec<PathBuf> = ctx.input(|i| {
             i.raw
@@ -805,10 +872,7 @@ impl eframe::App for CalderaApp {
         for command in commands {
             self.apply(command, &ctx);
         }
-        if self.runtime.fit.is_some()
-            || self.runtime.dialog.is_some()
-            || self.runtime.population_job.is_some()
-        {
+        if self.busy() {
             ctx.request_repaint_after(std::time::Duration::from_millis(100));
         }
     }

@@ -6,10 +6,15 @@
 //! Main types: [`CalderaApp`], [`AppOptions`], [`live::live_curve`].
 
 mod app;
+mod commands;
+pub mod jobs;
 pub mod live;
 mod panels;
 pub mod population;
+mod population_panel;
+pub mod state;
 pub mod theme;
-mod worker;
+pub mod worker;
 
-pub use app::{AppOptions, CalderaApp};
+pub use app::CalderaApp;
+pub use state::AppOptions;

@@ -8,10 +8,21 @@
 
 use caldera_data::GalaxyTable;
 use caldera_data::session::GalaxySettings;
-use caldera_infer::FitSummary;
 use caldera_infer::model::{Components, GalaxyModel};
 use caldera_infer::priors::{CrossSectionPrior, HaloBounds, Priors};
-use caldera_physics::{Cosmology, ParamId, ParamValues};
+use caldera_infer::{FitSummary, InferError};
+use caldera_physics::{Cosmology, ParamId, ParamValues, PhysicsError};
+
+/// Why no live curve exists for the controls' values.
+#[derive(Debug, thiserror::Error)]
+pub enum LiveError {
+    /// The galaxy's model could not be set up (its table, the priors).
+    #[error("{0}")]
+    Model(#[from] InferError),
+    /// The physics refused these values (for example, no isothermal core matches the halo).
+    #[error("{0}")]
+    Physics(#[from] PhysicsError),
+}
 
 /// The live curve and its fit statistics.
 #[derive(Debug, Clone, PartialEq)]
@@ -58,15 +69,14 @@ pub fn live_curve(
     settings: &GalaxySettings,
     cosmology: &Cosmology,
     previous: Option<(f64, f64)>,
-) -> Result<LiveCurve, String> {
+) -> Result<LiveCurve, LiveError> {
     let model = GalaxyModel::new(
         table,
         settings.model,
         live_priors(),
         *cosmology,
         Some(settings.age_gyr),
-    )
-    .map_err(|e| e.to_string())?;
+    )?;
     let family = settings.model.family();
     let nuisances = [
         ParamId::UpsilonDisk,
@@ -85,12 +95,11 @@ pub fn live_curve(
         ParamValues::from_pairs([(ParamId::Rho0, rho0), (ParamId::Sigma0, sigma0)])
     });
     let at_controls = model.theta_from_values(&controls);
-    let baryons = model.baryons_at(&at_controls).map_err(|e| e.to_string())?;
-    let parameters = family
-        .parameters_from_controls(&controls, &model.halo_context(&baryons), near.as_ref())
-        .map_err(|e| e.to_string())?;
+    let baryons = model.baryons_at(&at_controls)?;
+    let parameters =
+        family.parameters_from_controls(&controls, &model.halo_context(&baryons), near.as_ref())?;
     let theta = model.theta_from_values(&parameters);
-    let components = model.components(&theta).map_err(|e| e.to_string())?;
+    let components = model.components(&theta)?;
     let chi2 = components.chi2;
     let dof = model
         .n_points()
@@ -119,23 +128,18 @@ pub fn settings_from_fit(
     settings: &GalaxySettings,
     summary: &FitSummary,
     cosmology: &Cosmology,
-) -> Result<(GalaxySettings, Option<(f64, f64)>), String> {
+) -> Result<(GalaxySettings, Option<(f64, f64)>), LiveError> {
     let model = GalaxyModel::new(
         table,
         summary.model,
         live_priors(),
         *cosmology,
         Some(summary.age_gyr),
-    )
-    .map_err(|e| e.to_string())?;
+    )?;
     let family = summary.model.family();
     let best = summary.best_values();
-    let baryons = model
-        .baryons_at(&model.theta_from_values(&best))
-        .map_err(|e| e.to_string())?;
-    let controls = family
-        .controls_from_parameters(&best, &model.halo_context(&baryons))
-        .map_err(|e| e.to_string())?;
+    let baryons = model.baryons_at(&model.theta_from_values(&best))?;
+    let controls = family.controls_from_parameters(&best, &model.halo_context(&baryons))?;
     let mut out = settings.clone();
     out.model = summary.model;
     out.age_gyr = summary.age_gyr;

@@ -7,8 +7,10 @@ use egui_plot::{
     Bar, BarChart, Legend, Line, LineStyle, MarkerShape, Plot, PlotPoints, Points, VLine,
 };
 
-use crate::app::{CalderaApp, Command, SortKey, View};
+use crate::app::CalderaApp;
+use crate::commands::Command;
 use crate::population::log_curves;
+use crate::state::{SortKey, View};
 use crate::theme;
 
 /// Tick labels for axes that plot log10 values: the value itself.
@@ -65,8 +67,12 @@ impl CalderaApp {
             .max_height(90.0)
             .stick_to_bottom(true)
             .show(ui, |ui| {
-                for (colour, text) in &self.runtime.messages {
-                    ui.label(RichText::new(text).color(*colour).small());
+                for message in &self.runtime.messages {
+                    ui.label(
+                        RichText::new(&message.text)
+                            .color(theme::message_colour(message.kind))
+                            .small(),
+                    );
                 }
             });
     }
@@ -241,20 +247,21 @@ impl CalderaApp {
         let name = self.session.selected.clone().unwrap_or_default();
         match &self.runtime.fit {
             Some(job) => {
-                let (text, fraction) = match &job.latest {
+                let (text, fraction) = match job.latest() {
                     Some((model, p)) => (
                         format!(
                             "{} ({}): step {} of at most {}, τ {}",
-                            job.galaxy,
+                            job.label,
                             model.name(),
                             p.step,
                             p.max_steps,
                             p.tau_max.map_or("-".into(), |t| format!("{t:.0}"))
                         ),
-                        p.target_steps
-                            .map_or(p.step as f32 / p.max_steps as f32, |t| {
-                                p.step as f32 / t.max(1) as f32
-                            }),
+                        // Towards the steps the chain needs (50 τ), never past the cap.
+                        p.step as f32
+                            / p.target_steps
+                                .map_or(p.max_steps, |t| t.min(p.max_steps))
+                                .max(1) as f32,
                     ),
                     None => ("finding the best fit…".to_string(), 0.0),
                 };

@@ -44,3 +44,15 @@ pub const ERROR: Color32 = Color32::from_rgb(200, 40, 40);
 pub fn dimmed(c: Color32) -> Color32 {
     c.gamma_multiply(0.3)
 }
+
+/// The colour of a message of `kind` in the log.
+#[must_use]
+pub fn message_colour(kind: crate::state::MessageKind) -> Color32 {
+    use crate::state::MessageKind;
+    match kind {
+        MessageKind::Info => Color32::DARK_GRAY,
+        MessageKind::Result => DATA,
+        MessageKind::Warning => WARNING,
+        MessageKind::Error => ERROR,
+    }
+}

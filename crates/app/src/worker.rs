@@ -1,98 +1,142 @@
-//! Fits run on a worker thread; the UI polls a channel for progress and results and can cancel.
+//! The jobs the app runs: fits of one galaxy (one model or several for a comparison),
+//! population fits, and reading a catalogue or a run folder from disk.
 
-use std::sync::Arc;
-use std::sync::atomic::{AtomicBool, Ordering};
-use std::sync::mpsc::{Receiver, Sender, channel};
-use std::thread::JoinHandle;
+use std::path::PathBuf;
 
-use caldera_data::GalaxyTable;
-use caldera_data::session::HaloModel;
+use caldera_data::session::{HaloModel, load_session};
+use caldera_data::{Catalogue, DataError, GalaxyTable, ReadOptions, load_catalogue, read_table};
+use caldera_infer::population::{
+    FolderPosteriors, GalaxyPosterior, PopulationFit, PopulationSettings, Treatment, VelocityModel,
+    fit_population, load_folder_posteriors,
+};
+use caldera_infer::priors::CrossSectionPrior;
 use caldera_infer::sampler::{Control, Progress};
-use caldera_infer::{FitConfig, FitResult, fit_galaxy};
+use caldera_infer::session::Session;
+use caldera_infer::{FitConfig, FitResult, InferError, fit_galaxy};
 
-/// What the worker reports.
-pub enum FitMessage {
-    Progress {
-        model: HaloModel,
-        progress: Progress,
-    },
-    Finished {
-        model: HaloModel,
-        result: Result<Box<FitResult>, String>,
-    },
-    AllDone,
-}
+use crate::jobs::Job;
 
-/// A running fit (one galaxy, one or more models in turn).
-pub struct FitJob {
-    pub galaxy: String,
-    pub receiver: Receiver<FitMessage>,
-    pub cancel: Arc<AtomicBool>,
-    pub latest: Option<(HaloModel, Progress)>,
-    handle: Option<JoinHandle<()>>,
-}
+/// Progress of a fit: the model being fitted and the sampler's report.
+pub type FitProgress = (HaloModel, Progress);
 
-impl FitJob {
-    /// Starts fitting `models` to `table` on a new thread.
-    pub fn start(table: GalaxyTable, models: Vec<HaloModel>, config: FitConfig) -> Self {
-        let (sender, receiver) = channel();
-        let cancel = Arc::new(AtomicBool::new(false));
-        let galaxy = table.meta.name.clone();
-        let thread_cancel = Arc::clone(&cancel);
-        let handle =
-            std::thread::spawn(move || run(&table, &models, &config, &sender, &thread_cancel));
-        Self {
-            galaxy,
-            receiver,
-            cancel,
-            latest: None,
-            handle: Some(handle),
-        }
-    }
+/// One finished model of a fit job.
+pub type FitOutput = (HaloModel, Result<Box<FitResult>, InferError>);
 
-    /// Asks the worker to stop after the current step.
-    pub fn cancel(&self) {
-        self.cancel.store(true, Ordering::SeqCst);
-    }
-}
-
-impl Drop for FitJob {
-    fn drop(&mut self) {
-        self.cancel();
-        if let Some(handle) = self.handle.take() {
-            let _ = handle.join();
-        }
-    }
-}
-
-fn run(
-    table: &GalaxyTable,
-    models: &[HaloModel],
-    config: &FitConfig,
-    sender: &Sender<FitMessage>,
-    cancel: &AtomicBool,
-) {
-    for &model in models {
-        if cancel.load(Ordering::SeqCst) {
-            break;
-        }
-        let mut observer = |p: &Progress| {
-            let _ = sender.send(FitMessage::Progress {
-                model,
-                progress: *p,
-            });
-            if cancel.load(Ordering::SeqCst) {
-                Control::Stop
-            } else {
-                Control::Continue
+/// Fits `models` to `table` in turn.
+pub fn start_fit(
+    table: GalaxyTable,
+    models: Vec<HaloModel>,
+    config: FitConfig,
+) -> Job<FitProgress, FitOutput> {
+    let label = table.meta.name.clone();
+    Job::spawn(label, move |ctx| {
+        for &model in &models {
+            if ctx.cancelled() {
+                break;
             }
-        };
-        let result = fit_galaxy(table, model, config, &mut observer)
-            .map(Box::new)
-            .map_err(|e| e.to_string());
-        if sender.send(FitMessage::Finished { model, result }).is_err() {
-            return;
+            let mut observer = |p: &Progress| {
+                ctx.progress((model, *p));
+                if ctx.cancelled() {
+                    Control::Stop
+                } else {
+                    Control::Continue
+                }
+            };
+            let result = fit_galaxy(&table, model, &config, &mut observer).map(Box::new);
+            if !ctx.output((model, result)) {
+                return;
+            }
         }
-    }
-    let _ = sender.send(FitMessage::AllDone);
+    })
+}
+
+/// Progress of a population fit: which model (index of how many) and the sampler's report.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PopulationProgress {
+    pub model: VelocityModel,
+    pub index: usize,
+    pub count: usize,
+    pub sampler: Progress,
+}
+
+/// Fits every population model (marginal treatment) to `posteriors`, one after the other.
+pub fn start_population_fit(
+    posteriors: Vec<GalaxyPosterior>,
+    settings: PopulationSettings,
+) -> Job<PopulationProgress, Result<PopulationFit, InferError>> {
+    let label = format!("population fit of {} galaxies", posteriors.len());
+    Job::spawn(label, move |ctx| {
+        let count = VelocityModel::ALL.len();
+        for (index, model) in VelocityModel::ALL.into_iter().enumerate() {
+            if ctx.cancelled() {
+                return;
+            }
+            let mut observer = |p: &Progress| {
+                ctx.progress(PopulationProgress {
+                    model,
+                    index,
+                    count,
+                    sampler: *p,
+                });
+                if ctx.cancelled() {
+                    Control::Stop
+                } else {
+                    Control::Continue
+                }
+            };
+            let fit = fit_population(
+                model,
+                Treatment::Marginal,
+                &posteriors,
+                &[],
+                &settings,
+                &mut observer,
+            );
+            if ctx.cancelled() || !ctx.output(fit) {
+                return;
+            }
+        }
+    })
+}
+
+/// Reads a catalogue (a table or a folder of tables) off the UI thread.
+pub fn start_catalogue_load(
+    path: PathBuf,
+    read: ReadOptions,
+) -> Job<(), (PathBuf, ReadOptions, Result<Catalogue, DataError>)> {
+    Job::spawn(format!("reading {}", path.display()), move |ctx| {
+        let loaded = load_catalogue(&path, &read);
+        ctx.output((path, read, loaded));
+    })
+}
+
+/// Reads a session file off the UI thread.
+pub fn start_session_load(path: PathBuf) -> Job<(), (PathBuf, Result<Session, DataError>)> {
+    Job::spawn(format!("reading {}", path.display()), move |ctx| {
+        let loaded = load_session::<Session>(&path);
+        ctx.output((path, loaded));
+    })
+}
+
+/// Reads one table with explicit read options (a column mapping) off the UI thread.
+pub fn start_table_load(
+    path: PathBuf,
+    read: ReadOptions,
+) -> Job<(), (PathBuf, ReadOptions, Result<GalaxyTable, DataError>)> {
+    Job::spawn(format!("reading {}", path.display()), move |ctx| {
+        let loaded = read_table(&path, &read);
+        ctx.output((path, read, loaded));
+    })
+}
+
+/// Reads the SIDM posteriors of a catalogue run's folder off the UI thread.
+pub fn start_folder_posteriors_load(
+    folder: PathBuf,
+    prior: CrossSectionPrior,
+    max_samples: usize,
+) -> Job<(), (PathBuf, Result<FolderPosteriors, InferError>)> {
+    Job::spawn(format!("reading {}", folder.display()), move |ctx| {
+        let loaded = load_folder_posteriors(&folder, &prior, max_samples);
+        ctx.output((folder, loaded));
+    })
 }

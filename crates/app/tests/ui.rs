@@ -25,10 +25,24 @@ fn options(tag: &str) -> (AppOptions, PathBuf) {
     )
 }
 
+/// The app with its start-up catalogue read (reading happens off the UI thread).
 fn harness(options: AppOptions) -> Harness<'static, CalderaApp> {
-    Harness::builder()
+    let mut harness = Harness::builder()
         .with_size([1500.0, 950.0])
-        .build_eframe(move |cc| CalderaApp::new(cc, options))
+        .build_eframe(move |cc| CalderaApp::new(cc, options));
+    settle(&mut harness);
+    harness
+}
+
+/// Steps the app until no background job runs (at most two minutes).
+fn settle(harness: &mut Harness<'static, CalderaApp>) {
+    let deadline = Instant::now() + Duration::from_secs(120);
+    harness.step();
+    while harness.state().busy() && Instant::now() < deadline {
+        std::thread::sleep(Duration::from_millis(10));
+        harness.step();
+    }
+    harness.run();
 }
 
 #[test]

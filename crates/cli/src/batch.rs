@@ -30,8 +30,6 @@ use rayon::prelude::*;
 
 use crate::Verbosity;
 
-/// Sub-folder holding one folder per galaxy.
-
 /// A deterministic slice of a catalogue: the K-th of N (1-based).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub struct Shard {

@@ -1,0 +1,166 @@
+//! The population view's side panel: the particle model and the population fits. Draws and
+//! emits commands only.
+
+use caldera_infer::population::{VelocityModel, preferred_by_bic};
+use caldera_physics::cross_section::dispersion_from_mean_relative_speed_kms;
+use caldera_physics::units::BARN_PER_GEV_PER_CM2_PER_G;
+use egui::RichText;
+
+use crate::app::CalderaApp;
+use crate::commands::Command;
+use crate::population::ParticleModel;
+use crate::theme;
+
+impl CalderaApp {
+    /// The population view's side panel.
+    pub(crate) fn population_controls_ui(&self, ui: &mut egui::Ui, commands: &mut Vec<Command>) {
+        ui.heading("Particle model");
+        let before = &self.runtime.particle;
+        let mut particle = before.clone();
+        egui::ComboBox::from_label("σ(v)/m")
+            .selected_text(particle.kind.name())
+            .show_ui(ui, |ui| {
+                for kind in VelocityModel::ALL {
+                    if ui
+                        .selectable_label(particle.kind == kind, kind.name())
+                        .clicked()
+                        && kind != particle.kind
+                    {
+                        particle = ParticleModel::new(kind);
+                    }
+                }
+            });
+        for (k, spec) in particle.kind.parameters().iter().enumerate() {
+            let (lower, upper) = spec.log10_bounds;
+            let mut value = 10f64.powf(particle.log10_values[k]);
+            ui.add(
+                egui::Slider::new(&mut value, 10f64.powf(lower)..=10f64.powf(upper))
+                    .logarithmic(true)
+                    .text(spec.label()),
+            );
+            particle.log10_values[k] = value.log10();
+        }
+        match particle.cross_section() {
+            Ok(cross_section) => {
+                let at = 100.0;
+                let s = cross_section.sigma_m_cm2_g(at);
+                ui.label(format!(
+                    "σ/m at v = {at:.0} km/s: {s:.3} cm²/g = {:.3} barn/GeV",
+                    s * BARN_PER_GEV_PER_CM2_PER_G
+                ));
+                let sigma0 = dispersion_from_mean_relative_speed_kms(at);
+                ui.label(format!(
+                    "<σv>/m at <v_rel> = {at:.0} km/s: {:.4} cm²/g·km/s",
+                    cross_section.sigma_v_over_m_cm2_g_kms(sigma0)
+                ));
+                ui.label(
+                    RichText::new(
+                        "Solid: <σv>/m ÷ <v_rel>, what a galaxy measures; dashed: σ(v)/m. 1 cm²/g = 1.78 barn/GeV.",
+                    )
+                    .small(),
+                );
+            }
+            Err(e) => {
+                ui.colored_label(theme::ERROR, e.to_string());
+            }
+        }
+        if particle != *before {
+            commands.push(Command::Particle(particle));
+        }
+
+        ui.separator();
+        ui.heading("Population fit");
+        let (count, problems) = self
+            .runtime
+            .population_inputs
+            .as_ref()
+            .map_or((0, &[][..]), |i| {
+                (i.posteriors.len(), i.problems.as_slice())
+            });
+        ui.label(format!(
+            "{count} galaxies with an SIDM posterior (fits made here, or chains of an opened catalogue-run folder)"
+        ));
+        for problem in problems {
+            ui.colored_label(theme::WARNING, problem);
+        }
+        if let Some(job) = &self.runtime.population_job {
+            let (text, fraction) = match job.latest() {
+                Some(p) => {
+                    let within = p.sampler.step as f32 / p.sampler.max_steps.max(1) as f32;
+                    (
+                        format!(
+                            "{}: model {} of {} ({}), step {}",
+                            job.label,
+                            p.index + 1,
+                            p.count,
+                            p.model.name(),
+                            p.sampler.step
+                        ),
+                        (p.index as f32 + within.min(1.0)) / p.count.max(1) as f32,
+                    )
+                }
+                None => (format!("{}: finding the best fits…", job.label), 0.0),
+            };
+            ui.add(egui::ProgressBar::new(fraction).text(text));
+            if ui.button("Cancel population fit").clicked() {
+                commands.push(Command::CancelPopulationFit);
+            }
+        } else if ui
+            .add_enabled(
+                count > 0,
+                egui::Button::new("Fit population models"),
+            )
+            .on_hover_text("Constant, fall-off, Yukawa and resonance σ(v)/m fitted to every galaxy's σ/m posterior at its velocity; compared by BIC")
+            .on_disabled_hover_text("Fit SIDM to at least one galaxy first (or open a catalogue run's session.ron)")
+            .clicked()
+        {
+            commands.push(Command::FitPopulation);
+        }
+        if let Some(fits) = &self.runtime.population {
+            let preferred = preferred_by_bic(fits);
+            let best_bic = fits.iter().map(|f| f.bic).fold(f64::INFINITY, f64::min);
+            egui::Grid::new("population fits")
+                .striped(true)
+                .show(ui, |ui| {
+                    ui.strong("model");
+                    ui.strong("ln L_max");
+                    ui.strong("ΔBIC");
+                    ui.strong("ΔAIC");
+                    ui.end_row();
+                    let best_aic = fits.iter().map(|f| f.aic).fold(f64::INFINITY, f64::min);
+                    for fit in fits {
+                        let name = if Some(fit.model) == preferred {
+                            format!("{} (preferred)", fit.model.name())
+                        } else {
+                            fit.model.name().to_string()
+                        };
+                        ui.label(name);
+                        ui.label(format!("{:.2}", fit.log_likelihood_max));
+                        ui.label(format!("{:.2}", fit.bic - best_bic));
+                        ui.label(format!("{:.2}", fit.aic - best_aic));
+                        ui.end_row();
+                    }
+                });
+            for fit in fits {
+                ui.collapsing(format!("{} parameters", fit.model.name()), |ui| {
+                    for p in &fit.parameters {
+                        let text = match &p.interval {
+                            Some(i) => match i.upper95 {
+                                Some(u) => format!("{} < {u:.3e} {} (95%)", p.name, p.unit),
+                                None => format!(
+                                    "{} = {:.3e} [{:.3e}, {:.3e}] {}",
+                                    p.name, i.median, i.p16, i.p84, p.unit
+                                ),
+                            },
+                            None => format!("{}: no samples", p.name),
+                        };
+                        ui.label(text);
+                    }
+                    for note in &fit.notes {
+                        ui.colored_label(theme::WARNING, note);
+                    }
+                });
+            }
+        }
+    }
+}

@@ -1,0 +1,152 @@
+//! The app's state, with no egui in it: what a session saves lives in [`Session`] (infer crate);
+//! the runtime holds what is never saved — loaded tables, the live curve, background jobs,
+//! caches and messages. Panels read it; only commands change it.
+
+use std::collections::BTreeMap;
+use std::path::PathBuf;
+
+use caldera_data::session::{GalaxySettings, HaloModel};
+use caldera_data::{Catalogue, ColumnRole, DataError, GalaxyTable, ReadOptions};
+use caldera_infer::population::{FolderPosteriors, PopulationFit};
+use caldera_infer::sampler::RunConfig;
+use caldera_infer::session::Session;
+use caldera_infer::{FitResult, InferError};
+
+use crate::jobs::Job;
+use crate::live::{LiveCurve, LiveError};
+use crate::population::{ParticleModel, PopulationInputs};
+use crate::worker::{FitOutput, FitProgress, PopulationProgress};
+
+/// How serious a message is (the theme gives each its colour).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum MessageKind {
+    Info,
+    Result,
+    Warning,
+    Error,
+}
+
+/// One line of the message log.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Message {
+    pub kind: MessageKind,
+    pub text: String,
+}
+
+/// A catalogue being read off the UI thread.
+pub(crate) type CatalogueLoad = Job<(), (PathBuf, ReadOptions, Result<Catalogue, DataError>)>;
+
+/// A session file being read off the UI thread.
+pub(crate) type SessionLoad = Job<(), (PathBuf, Result<Session, DataError>)>;
+
+/// A table being read off the UI thread with a column mapping.
+pub(crate) type TableLoad = Job<(), (PathBuf, ReadOptions, Result<GalaxyTable, DataError>)>;
+
+/// A run folder's posteriors being read off the UI thread.
+pub(crate) type FolderLoad = Job<(), (PathBuf, Result<FolderPosteriors, InferError>)>;
+
+/// How the app starts.
+#[derive(Debug, Clone, PartialEq)]
+pub struct AppOptions {
+    /// A table or catalogue folder to open at start-up.
+    pub catalogue: Option<PathBuf>,
+    /// A session file to restore at start-up (takes precedence over `catalogue`).
+    pub session: Option<PathBuf>,
+    /// Where exports are written.
+    pub export_dir: PathBuf,
+    /// Step cap of fits started from the app.
+    pub fit_max_steps: usize,
+}
+
+impl Default for AppOptions {
+    fn default() -> Self {
+        Self {
+            catalogue: Some(PathBuf::from("demo_galaxies")),
+            session: None,
+            export_dir: PathBuf::from("caldera-exports"),
+            fit_max_steps: RunConfig::default().max_steps,
+        }
+    }
+}
+
+/// One loaded galaxy, or why it could not be loaded.
+pub struct GalaxyEntry {
+    pub path: PathBuf,
+    pub table: Result<GalaxyTable, DataError>,
+}
+
+impl GalaxyEntry {
+    pub(crate) fn name(&self) -> String {
+        match &self.table {
+            Ok(t) => t.meta.name.clone(),
+            Err(_) => self
+                .path
+                .file_stem()
+                .map_or_else(String::new, |s| s.to_string_lossy().into_owned()),
+        }
+    }
+}
+
+/// Columns of the catalogue list that can sort it.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum SortKey {
+    Name,
+    VMax,
+    Points,
+    SigmaM,
+}
+
+/// The main view.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum View {
+    Galaxy,
+    Population,
+}
+
+/// A table waiting for the user to confirm its column roles.
+pub(crate) struct MappingStep {
+    pub(crate) path: PathBuf,
+    pub(crate) message: String,
+    pub(crate) roles: BTreeMap<ColumnRole, String>,
+}
+
+/// Runtime handles and caches: never saved.
+pub(crate) struct Runtime {
+    pub(crate) options: AppOptions,
+    pub(crate) galaxies: Vec<GalaxyEntry>,
+    pub(crate) selected: Option<usize>,
+    pub(crate) live: Option<LiveCurve>,
+    pub(crate) live_error: Option<LiveError>,
+    pub(crate) live_key: Option<(usize, GalaxySettings)>,
+    pub(crate) last_valid: Option<LiveCurve>,
+    /// The SIDM core (ρ0, σ0) the next live curve should follow (a best fit's branch).
+    pub(crate) core_hint: Option<(f64, f64)>,
+    pub(crate) fit: Option<Job<FitProgress, FitOutput>>,
+    pub(crate) fits: BTreeMap<(String, HaloModel), FitResult>,
+    pub(crate) messages: Vec<Message>,
+    pub(crate) sort: SortKey,
+    pub(crate) view: View,
+    pub(crate) dirty: bool,
+    pub(crate) confirm_quit: bool,
+    pub(crate) allowed_to_close: bool,
+    pub(crate) session_path: Option<PathBuf>,
+    pub(crate) dialog: Option<Job<(), Option<PathBuf>>>,
+    /// A catalogue being read.
+    pub(crate) loading: Option<CatalogueLoad>,
+    /// A session file being read.
+    pub(crate) session_load: Option<SessionLoad>,
+    /// A table being re-read with the user's column mapping.
+    pub(crate) table_load: Option<TableLoad>,
+    /// The galaxy to select once the catalogue being read arrives (a restored session's).
+    pub(crate) pending_selection: Option<String>,
+    /// The SIDM posteriors of the opened run folder: being read, or read (with the folder).
+    pub(crate) folder_load: Option<FolderLoad>,
+    pub(crate) folder_posteriors: Option<(PathBuf, FolderPosteriors)>,
+    pub(crate) mapping: Option<MappingStep>,
+    pub(crate) particle: ParticleModel,
+    pub(crate) population_job: Option<Job<PopulationProgress, Result<PopulationFit, InferError>>>,
+    /// Population fits finished so far by the running job.
+    pub(crate) population_partial: Vec<PopulationFit>,
+    pub(crate) population: Option<Vec<PopulationFit>>,
+    pub(crate) population_inputs: Option<PopulationInputs>,
+}
