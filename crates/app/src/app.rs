@@ -40,6 +40,17 @@ impl CalderaApp {
     pub fn new(cc: &eframe::CreationContext<'_>, options: AppOptions) -> Self {
         // A light theme, so the curves use the same colours as the exported (white) figures.
         cc.egui_ctx.set_theme(egui::Theme::Light);
+        // The figures' font (DejaVu Sans) first: its Greek is unmistakable (ρ, χ, ν, Υ), where
+        // egui's default font draws them much like p, x, v and Y.
+        let mut fonts = egui::FontDefinitions::default();
+        fonts.font_data.insert(
+            "dejavu-sans".into(),
+            std::sync::Arc::new(egui::FontData::from_static(caldera_report::FONT_BYTES)),
+        );
+        if let Some(family) = fonts.families.get_mut(&egui::FontFamily::Proportional) {
+            family.insert(0, "dejavu-sans".into());
+        }
+        cc.egui_ctx.set_fonts(fonts);
         Self::with_options(options)
     }
 
@@ -611,9 +622,9 @@ impl CalderaApp {
     fn apply(&mut self, command: Command, ctx: &egui::Context) {
         match command {
             Command::Select(i) => {
+                // Looking at another galaxy is not a change worth saving.
                 self.select(i);
                 self.runtime.view = View::Galaxy;
-                self.runtime.dirty = true;
             }
             Command::Settings(settings) => {
                 if let Some(i) = self.runtime.selected {

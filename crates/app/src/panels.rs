@@ -138,16 +138,28 @@ impl CalderaApp {
                             ui.label("-");
                         }
                     }
-                    match self
-                        .session
-                        .result(&name, HaloModel::Sidm)
-                        .and_then(|r| r.sigma_m_cm2_g)
-                    {
-                        Some(s) => match s.upper95 {
-                            Some(limit) => ui.label(format!("< {limit:.2}")),
-                            None => ui.label(format!("{:.2}", s.median)),
-                        },
-                        None => ui.label("-"),
+                    let sidm = self.session.result(&name, HaloModel::Sidm);
+                    match sidm.and_then(|r| r.sigma_m_cm2_g) {
+                        Some(s) => {
+                            let text = match s.upper95 {
+                                Some(limit) => format!("< {limit:.2} (95%)"),
+                                None => format!("{:.2} (median)", s.median),
+                            };
+                            if sidm.is_some_and(|r| !r.converged) {
+                                ui.label(
+                                    RichText::new(format!("{text} unconverged"))
+                                        .color(theme::WARNING),
+                                )
+                                .on_hover_text(
+                                    "The chain hit its step cap: do not publish this value",
+                                );
+                            } else {
+                                ui.label(text);
+                            }
+                        }
+                        None => {
+                            ui.label("-");
+                        }
                     };
                     let fitted: Vec<&str> = HaloModel::ALL
                         .iter()
@@ -194,14 +206,10 @@ impl CalderaApp {
             s.upsilon_bulge = upsilon_bulge;
         }
         if let Some(d) = s.distance_mpc.as_mut() {
-            ui.add(
-                egui::Slider::new(d, 0.5..=100.0)
-                    .logarithmic(true)
-                    .text("Distance [Mpc]"),
-            );
+            parameter_slider(ui, ParamId::Distance, d);
         }
         if let Some(i) = s.inclination_deg.as_mut() {
-            ui.add(egui::Slider::new(i, 10.0..=90.0).text("Inclination [deg]"));
+            parameter_slider(ui, ParamId::Inclination, i);
         }
         if s.model == HaloModel::Sidm {
             ui.add(egui::Slider::new(&mut s.age_gyr, 1.0..=13.5).text("Halo age [Gyr]"));
@@ -302,7 +310,7 @@ impl CalderaApp {
                 match s.upper95 {
                     Some(limit) => ui.label(format!("σ/m < {limit:.3} cm²/g (95% upper limit)")),
                     None => ui.label(format!(
-                        "σ/m = {:.3} (+{:.3} / −{:.3}) cm²/g",
+                        "σ/m = {:.3} (+{:.3} / −{:.3}) cm²/g  (median, 16–84%)",
                         s.median,
                         s.p84 - s.median,
                         s.median - s.p16
@@ -311,13 +319,16 @@ impl CalderaApp {
             }
             if let Some(v) = result.v_rel_kms {
                 ui.label(format!(
-                    "<v_rel> = {:.1} (+{:.1} / −{:.1}) km/s",
+                    "<v_rel> = {:.1} (+{:.1} / −{:.1}) km/s  (median, 16–84%)",
                     v.median,
                     v.p84 - v.median,
                     v.median - v.p16
                 ));
             }
-            ui.label(format!("χ²/ν = {:.2}", result.chi2_nu));
+            ui.label(format!(
+                "χ²/ν = {:.2} (best sample); halo age {:.1} Gyr",
+                result.chi2_nu, result.age_gyr
+            ));
             if result.converged {
                 ui.label(format!("converged (τ = {:.0} steps)", result.tau_max));
             } else {
@@ -678,7 +689,8 @@ fn parameter_slider(ui: &mut egui::Ui, id: ParamId, value: &mut f64) {
         egui::Slider::new(value, low..=high)
             .logarithmic(logarithmic)
             .text(id.label()),
-    );
+    )
+    .on_hover_text(id.description());
 }
 
 fn histogram_ui(ui: &mut egui::Ui, name: &str, values: &[f64]) {

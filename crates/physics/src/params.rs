@@ -141,6 +141,27 @@ impl ParamId {
         }
     }
 
+    /// What the parameter is, in words (tooltips, help).
+    #[must_use]
+    pub fn description(self) -> &'static str {
+        match self {
+            Self::Rho0 => "central density of the cored halo",
+            Self::Sigma0 => "velocity dispersion of the SIDM isothermal core",
+            Self::SigmaM => "self-interaction cross-section per mass",
+            Self::V200 => "circular velocity at r200 (mean density 200 ρ_crit)",
+            Self::C200 => "concentration r200 / r₋₂",
+            Self::R0 => "Burkert core radius",
+            Self::Rc => "pseudo-isothermal core radius",
+            Self::EinastoAlpha => "Einasto shape parameter",
+            Self::UpsilonDisk => {
+                "stellar-disk mass-to-light ratio (scales the table's disk column)"
+            }
+            Self::UpsilonBulge => "bulge mass-to-light ratio (scales the table's bulge column)",
+            Self::Distance => "distance (radii ∝ D, baryonic V² ∝ D)",
+            Self::Inclination => "inclination (observed velocities ∝ 1/sin i)",
+        }
+    }
+
     /// "symbol [unit]" (or the symbol alone when dimensionless), e.g. "σ/m [cm²/g]".
     #[must_use]
     pub fn label(self) -> String {

@@ -36,7 +36,7 @@ pub enum ReportError {
 }
 
 /// The bundled font (DejaVu Sans; licence in assets/fonts/DejaVuSans-LICENSE.txt).
-const FONT_BYTES: &[u8] = include_bytes!("../../../assets/fonts/DejaVuSans.ttf");
+pub const FONT_BYTES: &[u8] = include_bytes!("../../../assets/fonts/DejaVuSans.ttf");
 
 /// Registers the bundled font under the family name [`theme::FONT`] (once per process).
 pub fn register_font() {
