@@ -77,15 +77,7 @@ fn load_drag_fit_and_export() {
     assert!(harness.state().has_unsaved_changes());
 
     // A short fit on the worker thread; σ/m appears beside the curve.
-    harness.get_by_role_and_label(Role::Button, "Fit").click();
-    harness.run();
-    let deadline = Instant::now() + Duration::from_secs(120);
-    while harness.state().fitting() && Instant::now() < deadline {
-        std::thread::sleep(Duration::from_millis(20));
-        harness.step();
-    }
-    assert!(!harness.state().fitting(), "the fit did not finish");
-    harness.run();
+    fit_and_wait(&mut harness);
     let _ = harness.get_by_label_contains("σ/m = ");
     let _ = harness.get_by_label("Use best fit");
 

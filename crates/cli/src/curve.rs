@@ -11,7 +11,7 @@ use caldera_infer::priors::Priors;
 use caldera_physics::{
     BaryonTable, Branch, Burkert, Cosmology, CrossSection, Einasto, EnclosedMass, HaloModel,
     HaloProfile, Nfw, NoBaryons, ParamId, ParamValues, PseudoIsothermal, SidmSetup, sidm,
-    units::{DEFAULT_HALO_AGE_GYR, G_KPC_KMS2_PER_MSUN},
+    units::DEFAULT_HALO_AGE_GYR,
 };
 use clap::{Args, Subcommand};
 use serde_json::{Map, Value, json};
@@ -307,22 +307,19 @@ pub(crate) fn run(args: &CurveArgs, verbosity: Verbosity) -> anyhow::Result<Exit
             (Box::new(halo), parameters)
         }
         CurveModel::Einasto(a) => {
-            let halo = Einasto::from_v200_c200(a.v200, a.c200, a.alpha, &inputs.cosmology)
+            let (halo, virial) = Einasto::with_virial(a.v200, a.c200, a.alpha, &inputs.cosmology)
                 .context("cannot build the Einasto halo")?;
-            let r200 = a.c200 * halo.r_minus2_kpc;
-            fields.insert("v200_kms".into(), json!(a.v200));
-            fields.insert("c200".into(), json!(a.c200));
-            fields.insert("alpha".into(), json!(a.alpha));
-            fields.insert(
-                "rho_minus2_msun_kpc3".into(),
-                json!(halo.rho_minus2_msun_kpc3),
-            );
-            fields.insert("r_minus2_kpc".into(), json!(halo.r_minus2_kpc));
-            fields.insert("r200_kpc".into(), json!(r200));
-            fields.insert(
-                "m200_msun".into(),
-                json!(a.v200 * a.v200 * r200 / G_KPC_KMS2_PER_MSUN),
-            );
+            for (key, value) in [
+                ("v200_kms", virial.v200_kms),
+                ("c200", virial.c200),
+                ("alpha", a.alpha),
+                ("rho_minus2_msun_kpc3", halo.rho_minus2_msun_kpc3),
+                ("r_minus2_kpc", halo.r_minus2_kpc),
+                ("r200_kpc", virial.r200_kpc),
+                ("m200_msun", virial.m200_msun),
+            ] {
+                fields.insert(key.into(), json!(value));
+            }
             let parameters = ParamValues::from_pairs([
                 (ParamId::V200, a.v200),
                 (ParamId::C200, a.c200),

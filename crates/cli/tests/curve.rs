@@ -287,3 +287,28 @@ fn curve_reproduces_every_demo_fit_chi2() {
         }
     }
 }
+
+#[test]
+fn einasto_curve_matches_the_check_values() {
+    // Reference: tests/reference/check_values.md (Einasto, scipy gammainc): V200 = 100 km/s,
+    // c200 = 10, α = 0.18 → V(1, 5, 20 kpc) = 53.682638, 93.868721, 117.680827 km/s.
+    let v = json(&[
+        "curve", "einasto", "--v200", "100", "--c200", "10", "--alpha", "0.18", "--radii",
+        "1,5,20", "--json",
+    ]);
+    let halo: Vec<f64> = v["v_halo_kms"]
+        .as_array()
+        .expect("velocities")
+        .iter()
+        .filter_map(Value::as_f64)
+        .collect();
+    for (got, expected) in halo.iter().zip([53.682638, 93.868721, 117.680827]) {
+        assert!(
+            (got - expected).abs() < 1e-6 * expected,
+            "{got} vs {expected}"
+        );
+    }
+    assert_eq!(halo.len(), 3);
+    assert!((number(&v, "r200_kpc") - 10.0 * number(&v, "r_minus2_kpc")).abs() < 1e-9);
+    assert_eq!(v["model"], "einasto");
+}

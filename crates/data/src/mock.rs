@@ -9,7 +9,6 @@
 use caldera_physics::{
     Branch, Burkert, Cosmology, CrossSection, Einasto, ExponentialDisk, HaloProfile, Hernquist,
     Nfw, PhysicsError, PseudoIsothermal, SidmSetup, SidmSummary, VirialQuantities, sidm,
-    units::G_KPC_KMS2_PER_MSUN,
 };
 use rand::SeedableRng;
 use rand_distr::{Distribution, StandardNormal};
@@ -275,14 +274,7 @@ pub fn generate(spec: &MockSpec) -> Result<(GalaxyTable, MockTruth), MockError> 
             c200,
             alpha,
         } => {
-            let halo = Einasto::from_v200_c200(v200_kms, c200, alpha, &cosmology)?;
-            let r200_kpc = c200 * halo.r_minus2_kpc;
-            let virial = VirialQuantities {
-                v200_kms,
-                c200,
-                r200_kpc,
-                m200_msun: v200_kms * v200_kms * r200_kpc / G_KPC_KMS2_PER_MSUN,
-            };
+            let (halo, virial) = Einasto::with_virial(v200_kms, c200, alpha, &cosmology)?;
             (Box::new(halo), Some(virial), None)
         }
         MockHalo::SidmCoreFirst {

@@ -340,6 +340,27 @@ impl Einasto {
     }
 }
 
+impl Einasto {
+    /// [`Einasto::from_v200_c200`] with the halo's virial quantities (r200 = c200 r₋₂,
+    /// M200 = V200² r200 / G).
+    pub fn with_virial(
+        v200_kms: f64,
+        c200: f64,
+        alpha: f64,
+        cosmology: &Cosmology,
+    ) -> Result<(Self, VirialQuantities), PhysicsError> {
+        let halo = Self::from_v200_c200(v200_kms, c200, alpha, cosmology)?;
+        let r200_kpc = c200 * halo.r_minus2_kpc;
+        let virial = VirialQuantities {
+            v200_kms,
+            c200,
+            r200_kpc,
+            m200_msun: v200_kms * v200_kms * r200_kpc / G_KPC_KMS2_PER_MSUN,
+        };
+        Ok((halo, virial))
+    }
+}
+
 impl HaloProfile for Einasto {
     fn density_msun_kpc3(&self, radius_kpc: f64) -> f64 {
         let x = radius_kpc.max(0.0) / self.r_minus2_kpc;

@@ -2,9 +2,8 @@
 
 use super::{BuiltHalo, HaloContext, HaloDerived, HaloFamily, HaloModel};
 use crate::PhysicsError;
-use crate::halo::{Einasto, VirialQuantities};
+use crate::halo::Einasto;
 use crate::params::{ParamId, ParamValues};
-use crate::units::G_KPC_KMS2_PER_MSUN;
 
 /// Einasto halos, described by (V200, c200, α); c200 = r200 / r₋₂ is the analogue of NFW's
 /// r200 / r_s. α may be held fixed by the caller (a fit's layout), e.g. at ≈ 0.17, the value
@@ -30,23 +29,12 @@ impl HaloFamily for EinastoFamily {
         values: &ParamValues,
         context: &HaloContext,
     ) -> Result<BuiltHalo, PhysicsError> {
-        let (v200_kms, c200) = (
+        let (halo, virial) = Einasto::with_virial(
             values.require(ParamId::V200)?,
             values.require(ParamId::C200)?,
-        );
-        let halo = Einasto::from_v200_c200(
-            v200_kms,
-            c200,
             values.require(ParamId::EinastoAlpha)?,
             &context.cosmology,
         )?;
-        let r200_kpc = c200 * halo.r_minus2_kpc;
-        let virial = VirialQuantities {
-            v200_kms,
-            c200,
-            r200_kpc,
-            m200_msun: v200_kms * v200_kms * r200_kpc / G_KPC_KMS2_PER_MSUN,
-        };
         Ok(BuiltHalo {
             derived: HaloDerived::default().with_virial(&virial, Some(halo.r_minus2_kpc)),
             profile: Box::new(halo),
