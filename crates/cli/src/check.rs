@@ -115,8 +115,11 @@ pub(crate) fn run(args: &CheckArgs, verbosity: Verbosity) -> anyhow::Result<Exit
             }
         }
         text += &format!(
-            "{} galaxies, {points} points, {warnings} warnings, {errors} errors\n",
-            catalogue.entries.len()
+            "{}, {}, {}, {}\n",
+            count(catalogue.entries.len(), "galaxy", "galaxies"),
+            count(points, "point", "points"),
+            count(warnings, "warning", "warnings"),
+            count(errors, "error", "errors"),
         );
         crate::output::print(&text)?;
     }
@@ -125,4 +128,9 @@ pub(crate) fn run(args: &CheckArgs, verbosity: Verbosity) -> anyhow::Result<Exit
     } else {
         ExitCode::FAILURE
     })
+}
+
+/// "1 galaxy", "2 galaxies".
+fn count(n: usize, one: &str, many: &str) -> String {
+    format!("{n} {}", if n == 1 { one } else { many })
 }

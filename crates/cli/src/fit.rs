@@ -42,7 +42,7 @@ pub struct FitArgs {
     /// Halo models, comma-separated: sidm, nfw, burkert, pseudo-iso, einasto.
     #[arg(
         long,
-        alias = "model",
+        visible_alias = "model",
         value_delimiter = ',',
         default_value = "sidm",
         value_name = "MODEL,..."

@@ -143,3 +143,39 @@ fn mock_is_deterministic_writes_truth_and_refuses_to_overwrite() {
     assert_eq!(code, 0);
     std::fs::remove_dir_all(&dir).ok();
 }
+
+#[test]
+fn messages_say_things_once_in_good_english_and_name_the_flag() {
+    // A missing file: the reason is printed once.
+    let (code, _, stderr) = caldera(&["fit", "/nonexistent/table.csv", "--model", "sidm"]);
+    assert_eq!(code, 1);
+    assert_eq!(stderr.matches("No such file").count(), 1, "{stderr}");
+
+    // One table: "1 galaxy", not "1 galaxies".
+    let dir = temp_dir("messages");
+    let good = dir.join("good.csv");
+    std::fs::write(
+        &good,
+        "r_kpc,v_obs,e_vobs,v_gas,v_disk\n0.5,20,2,5,10\n1,30,2,8,15\n2,40,2,10,18\n3,45,2,11,18\n",
+    )
+    .expect("write");
+    let (code, stdout, stderr) = caldera(&["check", &good.to_string_lossy()]);
+    assert_eq!(code, 0, "{stderr}");
+    assert!(stdout.contains("1 galaxy,"), "{stdout}");
+    assert!(stdout.contains("0 errors"), "{stdout}");
+
+    // A table without an error column: the message names the flag that fixes it.
+    let bad = dir.join("no_errors.csv");
+    std::fs::write(&bad, "r_kpc,v_obs,v_gas,v_disk\n0.5,20,5,10\n1,30,8,15\n").expect("write");
+    let (code, stdout, stderr) = caldera(&["check", &bad.to_string_lossy()]);
+    assert_eq!(code, 1);
+    let said = format!("{stdout}{stderr}");
+    assert!(said.contains("--error-column NAME"), "{said}");
+    assert!(said.contains("1 error\n"), "{said}");
+
+    // The fit's help shows the singular spelling its examples use.
+    let (_, help, _) = caldera(&["fit", "--help"]);
+    assert!(help.contains("--model"), "{help}");
+    assert!(help.contains("[alias: --model]"), "{help}");
+    std::fs::remove_dir_all(&dir).ok();
+}

@@ -54,7 +54,7 @@ pub struct Catalogue {
 pub fn load_catalogue(path: &Path, options: &ReadOptions) -> Result<Catalogue, DataError> {
     let io_error = |source| DataError::Io {
         path: path.to_path_buf(),
-        source,
+        reason: source,
     };
     if !std::fs::metadata(path).map_err(io_error)?.is_dir() {
         let table = read_table(path, options);
@@ -112,7 +112,7 @@ fn apply_index(
 ) -> Result<(), DataError> {
     let text = std::fs::read_to_string(index).map_err(|source| DataError::Io {
         path: index.to_path_buf(),
-        source,
+        reason: source,
     })?;
     let mut header: Option<Vec<String>> = None;
     for (i, line) in text.lines().enumerate() {

@@ -37,6 +37,19 @@ impl ColumnRole {
         }
     }
 
+    /// The `caldera` flag that names this role's column (`--error-column NAME`).
+    #[must_use]
+    pub fn flag(self) -> &'static str {
+        match self {
+            Self::Radius => "--radius-column",
+            Self::VelocityObserved => "--velocity-column",
+            Self::VelocityError => "--error-column",
+            Self::VelocityGas => "--gas-column",
+            Self::VelocityDisk => "--disk-column",
+            Self::VelocityBulge => "--bulge-column",
+        }
+    }
+
     /// Header names (after [`normalise`]) that mean this role.
     #[must_use]
     pub fn aliases(self) -> &'static [&'static str] {

@@ -27,22 +27,26 @@ impl std::fmt::Display for Location {
 #[non_exhaustive]
 pub enum DataError {
     /// The file could not be opened or read.
-    #[error("{}: cannot read: {source}", path.display())]
+    /// (The reason is part of the message and deliberately not a `source`, so a context chain
+    /// prints it once.)
+    #[error("{}: cannot read: {reason}", path.display())]
     Io {
         path: PathBuf,
-        source: std::io::Error,
+        reason: std::io::Error,
     },
     /// A cell or header is malformed at a known place.
     #[error("{location}: {message}")]
     Malformed { location: Location, message: String },
     /// A required column role was not found among the header names.
     #[error(
-        "{}: no column for the {role} (looked for names such as {aliases}); columns present: {present}. Name it explicitly with a column mapping.",
+        "{}: no column for the {role} (looked for names such as {aliases}); columns present: {present}. Name it with {flag} NAME (or the app's column-mapping window).",
         path.display()
     )]
     MissingColumn {
         path: PathBuf,
         role: &'static str,
+        /// The command-line flag that names the column.
+        flag: &'static str,
         aliases: String,
         present: String,
     },

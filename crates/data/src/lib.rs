@@ -113,7 +113,7 @@ pub struct ReadOptions {
 pub fn read_table(path: &Path, options: &ReadOptions) -> Result<GalaxyTable, DataError> {
     let text = std::fs::read_to_string(path).map_err(|source| DataError::Io {
         path: path.to_path_buf(),
-        source,
+        reason: source,
     })?;
     read_table_from_str(&text, path, options)
 }

@@ -41,7 +41,7 @@ impl NumericTable {
 fn read_text(path: &Path) -> Result<String, DataError> {
     std::fs::read_to_string(path).map_err(|source| DataError::Io {
         path: path.to_path_buf(),
-        source,
+        reason: source,
     })
 }
 

@@ -139,7 +139,7 @@ fn malformed(path: &Path, message: String) -> DataError {
 pub fn load_session<T: SessionFile>(path: &Path) -> Result<T, DataError> {
     let text = std::fs::read_to_string(path).map_err(|source| DataError::Io {
         path: path.to_path_buf(),
-        source,
+        reason: source,
     })?;
     parse_session(&text, path)
 }

@@ -274,6 +274,7 @@ pub(crate) fn build_table(
             .ok_or_else(|| DataError::MissingColumn {
                 path: path.to_path_buf(),
                 role: role.describe(),
+                flag: role.flag(),
                 aliases: format!("'{wanted}' (from the column mapping)"),
                 present: present(&columns),
             })?;
@@ -292,10 +293,11 @@ pub(crate) fn build_table(
                 return Err(DataError::Malformed {
                     location: location(path, header_line, Some(index + 1)),
                     message: format!(
-                        "columns '{}' and '{}' both look like the {}; say which one with a column mapping",
+                        "columns '{}' and '{}' both look like the {}; say which one with {} NAME (or the app's column-mapping window)",
                         columns[other].header,
                         column.header,
-                        role.describe()
+                        role.describe(),
+                        role.flag()
                     ),
                 });
             }
@@ -312,6 +314,7 @@ pub(crate) fn build_table(
             return Err(DataError::MissingColumn {
                 path: path.to_path_buf(),
                 role: role.describe(),
+                flag: role.flag(),
                 aliases: role.aliases().join(", "),
                 present: present(&columns),
             });
@@ -388,6 +391,7 @@ pub(crate) fn build_table(
             converted(role, warnings)?.ok_or_else(|| DataError::MissingColumn {
                 path: path.to_path_buf(),
                 role: role.describe(),
+                flag: role.flag(),
                 aliases: role.aliases().join(", "),
                 present: present(&columns),
             })

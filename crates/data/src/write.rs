@@ -276,7 +276,7 @@ impl GalaxyTable {
 pub fn write_atomic(path: &Path, contents: &[u8]) -> Result<(), DataError> {
     let io_error = |source| DataError::Io {
         path: path.to_path_buf(),
-        source,
+        reason: source,
     };
     let folder = match path.parent() {
         Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),

@@ -42,7 +42,7 @@ pub struct RunFolder {
 fn io_error(path: &Path, source: std::io::Error) -> InferError {
     InferError::Data(DataError::Io {
         path: path.to_path_buf(),
-        source,
+        reason: source,
     })
 }
 

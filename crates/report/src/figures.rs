@@ -72,7 +72,7 @@ pub fn save_figure(figure: &impl Figure, path: &Path) -> Result<(), ReportError>
             }
             std::fs::rename(&temporary, path).map_err(|source| ReportError::Io {
                 path: path.to_path_buf(),
-                source,
+                reason: source,
             })?;
         }
         other => {

@@ -26,10 +26,10 @@ use thiserror::Error;
 pub enum ReportError {
     #[error("cannot draw the figure: {0}")]
     Draw(String),
-    #[error("{}: {source}", path.display())]
+    #[error("{}: {reason}", path.display())]
     Io {
         path: PathBuf,
-        source: std::io::Error,
+        reason: std::io::Error,
     },
     #[error(transparent)]
     Data(#[from] caldera_data::DataError),
