@@ -6,12 +6,11 @@ use std::path::{Path, PathBuf};
 
 use caldera_data::session::{GalaxySettings, HaloModel, save_session};
 use caldera_data::{Catalogue, ColumnMapping, DataError, GalaxyTable, ReadOptions, write_atomic};
-use caldera_infer::population::{
-    GalaxyPosterior, PopulationFit, PopulationSettings, preferred_by_bic,
-};
+use caldera_infer::population::{GalaxyPosterior, PopulationFit, PopulationSettings};
 use caldera_infer::run_folder::RunFolder;
 use caldera_infer::sampler::RunConfig;
 use caldera_infer::session::Session;
+use caldera_infer::summary::clearly_preferred;
 use caldera_infer::{FitConfig, FitSummary};
 use caldera_report::figures::{RotationCurveFigure, save_figure};
 use caldera_report::tables::{latex_table, results_table};
@@ -573,14 +572,19 @@ impl CalderaApp {
             self.say(MessageKind::Warning, "population fit cancelled");
             return;
         }
-        if let Some(preferred) = preferred_by_bic(&fits) {
-            self.say(
+        match clearly_preferred(&fits, |f| f.bic) {
+            Some(best) => self.say(
                 MessageKind::Result,
                 format!(
-                    "population fit: {} preferred (lowest BIC)",
-                    preferred.name()
+                    "population fit: {} preferred (ΔBIC ≥ 2 to every other model)",
+                    best.model.name()
                 ),
-            );
+            ),
+            None if !fits.is_empty() => self.say(
+                MessageKind::Result,
+                "population fit: no clear preference (the best models tie within ΔBIC < 2)",
+            ),
+            None => {}
         }
         if !fits.is_empty() {
             self.runtime.population = Some(fits);

@@ -7,6 +7,7 @@
 
 mod app;
 mod commands;
+pub mod format;
 pub mod jobs;
 pub mod live;
 mod panels;

@@ -1,6 +1,7 @@
 //! The panels: each `*_ui` function only draws and pushes [`Command`]s.
 
 use caldera_data::session::HaloModel;
+use caldera_infer::summary::{clearly_preferred, evidence_words};
 use caldera_physics::ParamId;
 use egui::{Color32, RichText};
 use egui_plot::{
@@ -9,21 +10,14 @@ use egui_plot::{
 
 use crate::app::CalderaApp;
 use crate::commands::Command;
+use crate::format::{interval, sig};
 use crate::population::log_curves;
 use crate::state::{SortKey, View};
 use crate::theme;
 
 /// Tick labels for axes that plot log10 values: the value itself.
 fn power_of_ten(mark: egui_plot::GridMark, _range: &std::ops::RangeInclusive<f64>) -> String {
-    let v = 10f64.powf(mark.value);
-    if (0.01..1e5).contains(&v) {
-        format!("{v:.3}")
-            .trim_end_matches('0')
-            .trim_end_matches('.')
-            .to_string()
-    } else {
-        format!("{v:.0e}")
-    }
+    sig(10f64.powf(mark.value), 2)
 }
 
 impl CalderaApp {
@@ -142,8 +136,8 @@ impl CalderaApp {
                     match sidm.and_then(|r| r.sigma_m_cm2_g) {
                         Some(s) => {
                             let text = match s.upper95 {
-                                Some(limit) => format!("< {limit:.2} (95%)"),
-                                None => format!("{:.2} (median)", s.median),
+                                Some(limit) => format!("< {} (95%)", sig(limit, 2)),
+                                None => format!("{} (median)", sig(s.median, 2)),
                             };
                             if sidm.is_some_and(|r| !r.converged) {
                                 ui.label(
@@ -228,12 +222,14 @@ impl CalderaApp {
                     (curve.v_rel_kms, curve.rho0_msun_kpc3, curve.sigma0_kms)
                 {
                     ui.label(format!(
-                        "core: ρ0 = {rho0:.3e} Msun/kpc³, σ0 = {sigma0:.1} km/s"
+                        "core: ρ0 = {} Msun/kpc³, σ0 = {} km/s",
+                        sig(rho0, 3),
+                        sig(sigma0, 3)
                     ));
-                    ui.label(format!("<v_rel> = {v:.1} km/s"));
+                    ui.label(format!("<v_rel> = {} km/s", sig(v, 3)));
                 }
                 if let Some(r1) = curve.components.r1_kpc {
-                    ui.label(format!("r1 = {r1:.2} kpc"));
+                    ui.label(format!("r1 = {} kpc", sig(r1, 3)));
                 }
             }
             (None, Some(error)) => {
@@ -306,24 +302,16 @@ impl CalderaApp {
             ui.label(
                 RichText::new(format!("{} fit of {name}", model_label(settings.model))).strong(),
             );
-            if let Some(s) = result.sigma_m_cm2_g {
-                match s.upper95 {
-                    Some(limit) => ui.label(format!("σ/m < {limit:.3} cm²/g (95% upper limit)")),
-                    None => ui.label(format!(
-                        "σ/m = {:.3} (+{:.3} / −{:.3}) cm²/g  (median, 16–84%)",
-                        s.median,
-                        s.p84 - s.median,
-                        s.median - s.p16
-                    )),
-                };
+            if let Some(s) = &result.sigma_m_cm2_g {
+                let shown = interval(s, "cm²/g");
+                if s.upper95.is_some() {
+                    ui.label(format!("σ/m {shown}"));
+                } else {
+                    ui.label(format!("σ/m = {shown}"));
+                }
             }
-            if let Some(v) = result.v_rel_kms {
-                ui.label(format!(
-                    "<v_rel> = {:.1} (+{:.1} / −{:.1}) km/s  (median, 16–84%)",
-                    v.median,
-                    v.p84 - v.median,
-                    v.median - v.p16
-                ));
+            if let Some(v) = &result.v_rel_kms {
+                ui.label(format!("<v_rel> = {}", interval(v, "km/s")));
             }
             ui.label(format!(
                 "χ²/ν = {:.2} (best sample); halo age {:.1} Gyr",
@@ -348,16 +336,25 @@ impl CalderaApp {
         if !rows.is_empty() {
             ui.separator();
             ui.label(RichText::new("Model comparison").strong());
+            let best_bic = rows.iter().map(|r| r.bic).fold(f64::INFINITY, f64::min);
+            let best_aic = rows.iter().map(|r| r.aic).fold(f64::INFINITY, f64::min);
+            let preferred = clearly_preferred(&rows, |r| r.bic).map(|r| r.model);
             egui::Grid::new("comparison").striped(true).show(ui, |ui| {
-                for h in ["Model", "χ²/ν", "AIC", "BIC"] {
+                for h in ["Model", "χ²/ν", "ΔAIC", "ΔBIC", "by ΔBIC"] {
                     ui.label(h);
                 }
                 ui.end_row();
-                for r in rows {
-                    ui.label(r.model.name());
+                for r in &rows {
+                    let name = if Some(r.model) == preferred {
+                        RichText::new(format!("{} (preferred)", r.model.name())).strong()
+                    } else {
+                        RichText::new(r.model.name())
+                    };
+                    ui.label(name);
                     ui.label(format!("{:.2}", r.chi2_nu));
-                    ui.label(format!("{:.1}", r.aic));
-                    ui.label(format!("{:.1}", r.bic));
+                    ui.label(format!("{:.1}", r.aic - best_aic));
+                    ui.label(format!("{:.1}", r.bic - best_bic));
+                    ui.label(evidence_words(r.bic - best_bic));
                     ui.end_row();
                 }
             });

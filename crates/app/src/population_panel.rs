@@ -1,15 +1,21 @@
 //! The population view's side panel: the particle model and the population fits. Draws and
 //! emits commands only.
 
-use caldera_infer::population::{VelocityModel, preferred_by_bic};
+use caldera_infer::population::VelocityModel;
+use caldera_infer::summary::{clearly_preferred, evidence_words};
 use caldera_physics::cross_section::dispersion_from_mean_relative_speed_kms;
 use caldera_physics::units::BARN_PER_GEV_PER_CM2_PER_G;
 use egui::RichText;
 
 use crate::app::CalderaApp;
 use crate::commands::Command;
+use crate::format::{interval, sig};
 use crate::population::ParticleModel;
 use crate::theme;
+
+/// Above this α m_χ / m_φ the Born-regime Yukawa cross-section is flagged (the population fit
+/// uses the same threshold; common practice for "≪ 1").
+const BORN_LIMIT: f64 = 0.1;
 
 impl CalderaApp {
     /// The population view's side panel.
@@ -42,16 +48,28 @@ impl CalderaApp {
         }
         match particle.cross_section() {
             Ok(cross_section) => {
+                if let Some(born) = cross_section.born_parameter()
+                    && born > BORN_LIMIT
+                {
+                    ui.colored_label(
+                        theme::WARNING,
+                        format!(
+                            "Born approximation not valid here: α m_χ / m_φ = {} (needs ≪ 1); these σ/m values are not physical.",
+                            sig(born, 2)
+                        ),
+                    );
+                }
                 let at = 100.0;
                 let s = cross_section.sigma_m_cm2_g(at);
                 ui.label(format!(
-                    "σ/m at v = {at:.0} km/s: {s:.3} cm²/g = {:.3} barn/GeV",
-                    s * BARN_PER_GEV_PER_CM2_PER_G
+                    "σ/m at v = {at:.0} km/s: {} cm²/g = {} barn/GeV",
+                    sig(s, 3),
+                    sig(s * BARN_PER_GEV_PER_CM2_PER_G, 3)
                 ));
                 let sigma0 = dispersion_from_mean_relative_speed_kms(at);
                 ui.label(format!(
-                    "<σv>/m at <v_rel> = {at:.0} km/s: {:.4} cm²/g·km/s",
-                    cross_section.sigma_v_over_m_cm2_g_kms(sigma0)
+                    "<σv>/m at <v_rel> = {at:.0} km/s: {} cm²/g·km/s",
+                    sig(cross_section.sigma_v_over_m_cm2_g_kms(sigma0), 3)
                 ));
                 ui.label(
                     RichText::new(
@@ -117,7 +135,7 @@ impl CalderaApp {
             commands.push(Command::FitPopulation);
         }
         if let Some(fits) = &self.runtime.population {
-            let preferred = preferred_by_bic(fits);
+            let preferred = clearly_preferred(fits, |f| f.bic).map(|f| f.model);
             let best_bic = fits.iter().map(|f| f.bic).fold(f64::INFINITY, f64::min);
             egui::Grid::new("population fits")
                 .striped(true)
@@ -126,6 +144,7 @@ impl CalderaApp {
                     ui.strong("ln L_max");
                     ui.strong("ΔBIC");
                     ui.strong("ΔAIC");
+                    ui.strong("by ΔBIC");
                     ui.end_row();
                     let best_aic = fits.iter().map(|f| f.aic).fold(f64::INFINITY, f64::min);
                     for fit in fits {
@@ -138,20 +157,27 @@ impl CalderaApp {
                         ui.label(format!("{:.2}", fit.log_likelihood_max));
                         ui.label(format!("{:.2}", fit.bic - best_bic));
                         ui.label(format!("{:.2}", fit.aic - best_aic));
+                        ui.label(evidence_words(fit.bic - best_bic));
                         ui.end_row();
                     }
                 });
+            if preferred.is_none() {
+                ui.label("No clear preference: the best models are within ΔBIC < 2 (a tie).");
+            }
+            ui.label(
+                RichText::new(
+                    "Words on the Kass & Raftery (1995) scale for ΔBIC: < 2 tie, 2–6 positive, 6–10 strong, > 10 very strong (common practice).",
+                )
+                .small(),
+            );
             for fit in fits {
                 ui.collapsing(format!("{} parameters", fit.model.name()), |ui| {
                     for p in &fit.parameters {
                         let text = match &p.interval {
-                            Some(i) => match i.upper95 {
-                                Some(u) => format!("{} < {u:.3e} {} (95%)", p.name, p.unit),
-                                None => format!(
-                                    "{} = {:.3e} [{:.3e}, {:.3e}] {}",
-                                    p.name, i.median, i.p16, i.p84, p.unit
-                                ),
-                            },
+                            Some(i) if i.upper95.is_some() => {
+                                format!("{} {}", p.name, interval(i, &p.unit))
+                            }
+                            Some(i) => format!("{} = {}", p.name, interval(i, &p.unit)),
                             None => format!("{}: no samples", p.name),
                         };
                         ui.label(text);

@@ -253,8 +253,8 @@ fn interval_line(label: &str, unit: &str, interval: Option<&Interval>) -> String
 /// The human-readable fit summary.
 pub(crate) fn text_summary(s: &FitSummary) -> String {
     let mut out = format!(
-        "{} — {} halo, {} points, {} free parameters\n",
-        s.galaxy, s.model, s.n_points, s.n_parameters
+        "{} — {} halo, {} points, {} free parameters, halo age {} Gyr\n",
+        s.galaxy, s.model, s.n_points, s.n_parameters, s.age_gyr
     );
     out.push_str(&interval_line("sigma/m", "cm2/g", s.sigma_m_cm2_g.as_ref()));
     out.push_str(&interval_line("<v_rel>", "km/s", s.v_rel_kms.as_ref()));

@@ -65,6 +65,35 @@ pub fn piles_at_lower_bound(coordinates: &[f64], lower: f64, upper: f64) -> bool
     quantile(&sorted, 0.025) - lower < LOWER_BOUND_FRACTION * (upper - lower)
 }
 
+/// Words for a difference in BIC (or AIC) between a model and the best one, on the scale of
+/// Kass & Raftery (1995) for 2 ln B: below 2 "tie", 2–6 "positive", 6–10 "strong", above 10
+/// "very strong" evidence for the best model. Common practice, not a law: the thresholds are
+/// conventions.
+#[must_use]
+pub fn evidence_words(delta: f64) -> &'static str {
+    match delta {
+        d if !d.is_finite() => "-",
+        d if d <= 0.0 => "best",
+        d if d < 2.0 => "tie",
+        d if d < 6.0 => "positive against",
+        d if d < 10.0 => "strong against",
+        _ => "very strong against",
+    }
+}
+
+/// The clearly preferred entry by an information criterion: the lowest value, but only when the
+/// runner-up is at least 2 above it (otherwise a tie, None); `criterion` picks BIC or AIC.
+#[must_use]
+pub fn clearly_preferred<T>(items: &[T], criterion: impl Fn(&T) -> f64) -> Option<&T> {
+    let mut sorted: Vec<&T> = items.iter().filter(|t| criterion(t).is_finite()).collect();
+    sorted.sort_by(|a, b| criterion(a).total_cmp(&criterion(b)));
+    match sorted.as_slice() {
+        [best] => Some(best),
+        [best, second, ..] if criterion(second) - criterion(best) >= 2.0 => Some(best),
+        _ => None,
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -89,5 +118,19 @@ mod tests {
             .map(|i| 0.4 + 0.2 * f64::from(i) / 1000.0)
             .collect();
         assert!(!piles_at_lower_bound(&peaked, -2.0, 2.0));
+    }
+
+    #[test]
+    fn evidence_words_follow_the_stated_scale() {
+        // Kass & Raftery (1995) thresholds on the 2 ln B (ΔBIC) scale: 2, 6, 10.
+        assert_eq!(evidence_words(0.0), "best");
+        assert_eq!(evidence_words(0.24), "tie");
+        assert_eq!(evidence_words(3.0), "positive against");
+        assert_eq!(evidence_words(7.0), "strong against");
+        assert_eq!(evidence_words(12.0), "very strong against");
+        let bic = [10.0, 10.24, 15.0];
+        assert!(clearly_preferred(&bic, |b| *b).is_none());
+        let bic = [10.0, 13.0];
+        assert_eq!(clearly_preferred(&bic, |b| *b), Some(&10.0));
     }
 }

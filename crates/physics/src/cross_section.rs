@@ -276,6 +276,20 @@ impl CrossSection {
         })
     }
 
+    /// For the Yukawa model, the Born parameter α m_χ / m_φ; the Born approximation needs it
+    /// ≪ 1 (Feng, Kaplinghat & Yu 2010; Tulin, Yu & Zurek 2013). None for other models.
+    #[must_use]
+    pub fn born_parameter(&self) -> Option<f64> {
+        match *self {
+            Self::Yukawa {
+                dm_mass_gev,
+                mediator_mass_mev,
+                alpha,
+            } => Some(alpha * dm_mass_gev / mev_to_gev(mediator_mass_mev)),
+            _ => None,
+        }
+    }
+
     /// σ(v)/m at relative speed `v_kms`, cm²/g.
     #[must_use]
     pub fn sigma_m_cm2_g(&self, v_kms: f64) -> f64 {

@@ -81,6 +81,7 @@ pub fn results_table(rows: &[ResultRow]) -> OutputTable {
         .with_column("bic", None, rows.iter().map(|r| r.bic).collect())
         .with_flag_column("converged", rows.iter().map(|r| r.converged).collect())
         .with_column("tau_max", None, rows.iter().map(|r| r.tau_max).collect())
+        .with_column("age", Some("Gyr"), rows.iter().map(|r| r.age_gyr).collect())
         .with_meta(
             "description",
             MetaValue::Text("Caldera fit results: one row per galaxy and halo model".into()),
@@ -127,22 +128,23 @@ fn latex_escape(text: &str) -> String {
 }
 
 /// The results as a plain LaTeX `tabular`: σ/m (or its 95% upper limit), ⟨v_rel⟩, V200, c200,
-/// χ²/ν and BIC per galaxy and model; unconverged fits marked with a dagger.
+/// halo age, χ²/ν and BIC per galaxy and model; unconverged fits marked with a dagger.
 #[must_use]
 pub fn latex_table(rows: &[ResultRow]) -> String {
     let mut out = String::from(
-        "\\begin{tabular}{llrrrrrr}\n\\hline\nGalaxy & Model & $\\sigma/m$ [cm$^2$\\,g$^{-1}$] & $\\langle v_{\\rm rel}\\rangle$ [km\\,s$^{-1}$] & $V_{200}$ [km\\,s$^{-1}$] & $c_{200}$ & $\\chi^2/\\nu$ & BIC \\\\\n\\hline\n",
+        "\\begin{tabular}{llrrrrrrr}\n\\hline\nGalaxy & Model & $\\sigma/m$ [cm$^2$\\,g$^{-1}$] & $\\langle v_{\\rm rel}\\rangle$ [km\\,s$^{-1}$] & $V_{200}$ [km\\,s$^{-1}$] & $c_{200}$ & $t_{\\rm age}$ [Gyr] & $\\chi^2/\\nu$ & BIC \\\\\n\\hline\n",
     );
     for r in rows {
         let dagger = if r.converged { "" } else { "$^\\dagger$" };
         out.push_str(&format!(
-            "{}{dagger} & {} & {} & {} & {} & {} & {:.2} & {:.1} \\\\\n",
+            "{}{dagger} & {} & {} & {} & {} & {} & {} & {:.2} & {:.1} \\\\\n",
             latex_escape(&r.galaxy),
             latex_escape(r.model.name()),
             latex_interval(r.sigma_m_cm2_g),
             latex_interval(r.v_rel_kms),
             latex_interval(r.v200_kms),
             latex_interval(r.c200),
+            r.age_gyr,
             r.chi2_nu,
             r.bic
         ));
