@@ -81,6 +81,7 @@ impl CalderaApp {
                 particle: ParticleModel::default(),
                 population_job: None,
                 population_partial: Vec::new(),
+                exclude_unconverged: true,
                 population: None,
                 population_inputs: None,
                 loading: None,
@@ -656,11 +657,19 @@ impl CalderaApp {
             Command::Particle(particle) => self.runtime.particle = particle,
             Command::FitPopulation => {
                 self.refresh_population_inputs();
-                let posteriors = self
+                let exclude = self.runtime.exclude_unconverged;
+                let posteriors: Vec<GalaxyPosterior> = self
                     .runtime
                     .population_inputs
                     .as_ref()
-                    .map(|i| i.posteriors.clone())
+                    .map(|i| {
+                        i.posteriors
+                            .iter()
+                            .zip(&i.converged)
+                            .filter(|(_, converged)| **converged || !exclude)
+                            .map(|(p, _)| p.clone())
+                            .collect()
+                    })
                     .unwrap_or_default();
                 if !posteriors.is_empty() && self.runtime.population_job.is_none() {
                     let settings = PopulationSettings {
@@ -671,6 +680,7 @@ impl CalderaApp {
                     self.runtime.population_job = Some(start_population_fit(posteriors, settings));
                 }
             }
+            Command::ExcludeUnconverged(exclude) => self.runtime.exclude_unconverged = exclude,
             Command::CancelPopulationFit => {
                 if let Some(job) = &self.runtime.population_job {
                     job.cancel();

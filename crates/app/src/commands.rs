@@ -28,4 +28,5 @@ pub enum Command {
     Particle(ParticleModel),
     FitPopulation,
     CancelPopulationFit,
+    ExcludeUnconverged(bool),
 }

@@ -521,30 +521,55 @@ impl CalderaApp {
                     };
                     let x = v.median.log10();
                     let id = ("population", index);
+                    // One legend entry per kind of point, not per galaxy; unconverged chains
+                    // stand out in their own colour and entry.
+                    let (measured, limits, colour, limit_colour) = if r.converged {
+                        (
+                            "galaxies: σ/m median, 16–84%",
+                            "galaxies: 95% upper limit",
+                            theme::DATA,
+                            theme::LIMIT,
+                        )
+                    } else {
+                        (
+                            "unconverged chains (do not publish)",
+                            "unconverged chains (do not publish)",
+                            theme::WARNING,
+                            theme::WARNING,
+                        )
+                    };
                     plot.line(
                         Line::new(
-                            &r.galaxy,
+                            if s.upper95.is_some() {
+                                limits
+                            } else {
+                                measured
+                            },
                             PlotPoints::from(vec![
                                 [v.p16.log10(), s.median.log10()],
                                 [v.p84.log10(), s.median.log10()],
                             ]),
                         )
-                        .color(theme::DATA)
+                        .color(if s.upper95.is_some() {
+                            limit_colour
+                        } else {
+                            colour
+                        })
                         .id((id, "x")),
                     );
                     match s.upper95 {
                         Some(limit) => {
                             let y = limit.log10();
                             plot.line(
-                                Line::new(&r.galaxy, PlotPoints::from(vec![[x, y], [x, y - 0.4]]))
-                                    .color(theme::LIMIT)
+                                Line::new(limits, PlotPoints::from(vec![[x, y], [x, y - 0.4]]))
+                                    .color(limit_colour)
                                     .id((id, "limit")),
                             );
                             plot.points(
-                                Points::new(&r.galaxy, PlotPoints::from(vec![[x, y - 0.4]]))
+                                Points::new(limits, PlotPoints::from(vec![[x, y - 0.4]]))
                                     .shape(MarkerShape::Down)
                                     .radius(6.0)
-                                    .color(theme::LIMIT)
+                                    .color(limit_colour)
                                     .id((id, "arrow")),
                             );
                             points.push((index, [x, y]));
@@ -553,17 +578,17 @@ impl CalderaApp {
                             let y = s.median.log10();
                             plot.line(
                                 Line::new(
-                                    &r.galaxy,
+                                    measured,
                                     PlotPoints::from(vec![[x, s.p16.log10()], [x, s.p84.log10()]]),
                                 )
-                                .color(theme::DATA)
+                                .color(colour)
                                 .id((id, "y")),
                             );
                             plot.points(
-                                Points::new(&r.galaxy, PlotPoints::from(vec![[x, y]]))
+                                Points::new(measured, PlotPoints::from(vec![[x, y]]))
                                     .radius(5.0)
-                                    .filled(true)
-                                    .color(theme::DATA)
+                                    .filled(r.converged)
+                                    .color(colour)
                                     .id((id, "point")),
                             );
                             points.push((index, [x, y]));
@@ -606,12 +631,17 @@ impl CalderaApp {
                 }
                 plot.pointer_coordinate()
             });
+        // A click opens the galaxy whose point is under the pointer (within 0.1 dex), not the
+        // nearest one to a click in empty space.
+        let distance =
+            |p: &[f64; 2], x: f64, y: f64| ((p[0] - x).powi(2) + (p[1] - y).powi(2)).sqrt();
         if response.response.clicked()
             && let Some(pointer) = response.inner
-            && let Some((index, _)) = points.iter().min_by(|a, b| {
-                let d = |p: &[f64; 2]| (p[0] - pointer.x).powi(2) + (p[1] - pointer.y).powi(2);
-                d(&a.1).total_cmp(&d(&b.1))
+            && let Some((index, point)) = points.iter().min_by(|a, b| {
+                distance(&a.1, pointer.x, pointer.y)
+                    .total_cmp(&distance(&b.1, pointer.x, pointer.y))
             })
+            && distance(point, pointer.x, pointer.y) < 0.1
         {
             commands.push(Command::Select(*index));
         }

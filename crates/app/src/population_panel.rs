@@ -88,16 +88,33 @@ impl CalderaApp {
 
         ui.separator();
         ui.heading("Population fit");
-        let (count, problems) = self
-            .runtime
-            .population_inputs
-            .as_ref()
-            .map_or((0, &[][..]), |i| {
-                (i.posteriors.len(), i.problems.as_slice())
-            });
+        let (all, unconverged, problems) =
+            self.runtime
+                .population_inputs
+                .as_ref()
+                .map_or((0, 0, &[][..]), |i| {
+                    let unconverged = i.converged.iter().filter(|c| !**c).count();
+                    (i.posteriors.len(), unconverged, i.problems.as_slice())
+                });
         ui.label(format!(
-            "{count} galaxies with an SIDM posterior (fits made here, or chains of an opened catalogue-run folder)"
+            "{all} galaxies with an SIDM posterior (fits made here, or chains of an opened catalogue-run folder)"
         ));
+        let mut exclude = self.runtime.exclude_unconverged;
+        if unconverged > 0 {
+            ui.colored_label(
+                theme::WARNING,
+                format!(
+                    "{unconverged} of them come from chains that hit their step cap (unconverged)."
+                ),
+            );
+        }
+        if ui
+            .checkbox(&mut exclude, "Leave unconverged galaxies out of the fit")
+            .changed()
+        {
+            commands.push(Command::ExcludeUnconverged(exclude));
+        }
+        let count = if exclude { all - unconverged } else { all };
         for problem in problems {
             ui.colored_label(theme::WARNING, problem);
         }

@@ -145,6 +145,8 @@ pub(crate) struct Runtime {
     pub(crate) mapping: Option<MappingStep>,
     pub(crate) particle: ParticleModel,
     pub(crate) population_job: Option<Job<PopulationProgress, Result<PopulationFit, InferError>>>,
+    /// Leave galaxies whose SIDM chain did not converge out of population fits.
+    pub(crate) exclude_unconverged: bool,
     /// Population fits finished so far by the running job.
     pub(crate) population_partial: Vec<PopulationFit>,
     pub(crate) population: Option<Vec<PopulationFit>>,

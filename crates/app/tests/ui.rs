@@ -80,6 +80,23 @@ fn load_drag_fit_and_export() {
     fit_and_wait(&mut harness);
     let _ = harness.get_by_label_contains("σ/m = ");
     let _ = harness.get_by_label("Use best fit");
+    // 500 steps cannot reach 50 autocorrelation times: the galaxy list says so beside σ/m.
+    assert!(
+        !harness
+            .state()
+            .fit_summary("Kiln D01", caldera_data::session::HaloModel::Sidm)
+            .expect("a fit")
+            .converged
+    );
+    assert_eq!(
+        harness
+            .query_all_by_label_contains("(median) unconverged")
+            .count()
+            + harness
+                .query_all_by_label_contains("(95%) unconverged")
+                .count(),
+        1
+    );
 
     // Export the results table and check it.
     harness.get_by_role_and_label(Role::Button, "CSV").click();
@@ -105,6 +122,12 @@ fn load_drag_fit_and_export() {
     harness.run();
     assert_ne!(&before, harness.state().particle());
     assert!((harness.state().particle().log10_values[0] + 4.0).abs() < 1e-6);
+    // The only posterior is unconverged: the panel says so and leaves it out unless asked.
+    let _ = harness.get_by_label_contains("hit their step cap");
+    harness
+        .get_by_label("Leave unconverged galaxies out of the fit")
+        .click();
+    harness.run();
     harness
         .get_by_role_and_label(Role::Button, "Fit population models")
         .click();
