@@ -12,13 +12,15 @@ use caldera_infer::sampler::RunConfig;
 use caldera_infer::session::Session;
 use caldera_infer::summary::clearly_preferred;
 use caldera_infer::{FitConfig, FitSummary};
-use caldera_report::figures::{RotationCurveFigure, save_figure};
+use caldera_report::figures::{
+    PopulationCurve, PopulationFigure, PopulationPoint, RotationCurveFigure, save_figure,
+};
 use caldera_report::tables::{latex_table, results_table};
 
 use crate::commands::Command;
 use crate::jobs::Job;
 use crate::live::{LiveCurve, LiveError, live_curve, settings_from_fit};
-use crate::population::{ParticleModel, PopulationInputs};
+use crate::population::{ParticleModel, PopulationInputs, linear_curves};
 use crate::state::{
     AppOptions, GalaxyEntry, MappingStep, Message, MessageKind, Runtime, SortKey, View,
 };
@@ -793,7 +795,13 @@ impl CalderaApp {
         }
     }
 
+    /// Exports the figure of the view on screen: the rotation curve, or the population plot
+    /// with the particle model and the population fits' best curves.
     fn export_figure(&mut self, format: &str) {
+        if self.runtime.view == View::Population {
+            self.export_population_figure(format);
+            return;
+        }
         let (Some(curve), Some(settings)) = (self.runtime.live.clone(), self.current_settings())
         else {
             self.say(MessageKind::Warning, "no curve to export");
@@ -811,6 +819,72 @@ impl CalderaApp {
             settings.model.name()
         );
         let path = dir.join(file);
+        match save_figure(&figure, &path) {
+            Ok(()) => self.say(MessageKind::Info, format!("wrote {}", path.display())),
+            Err(e) => self.say(MessageKind::Error, format!("error: {e}")),
+        }
+    }
+
+    fn export_population_figure(&mut self, format: &str) {
+        let points: Vec<PopulationPoint> = self
+            .session
+            .results
+            .iter()
+            .filter(|r| r.model == HaloModel::Sidm)
+            .filter_map(|r| {
+                let name = if r.converged {
+                    r.galaxy.clone()
+                } else {
+                    format!("{} (unconverged)", r.galaxy)
+                };
+                Some(PopulationPoint::new(
+                    &name,
+                    r.v_rel_kms.as_ref()?,
+                    r.sigma_m_cm2_g.as_ref()?,
+                ))
+            })
+            .collect();
+        if points.is_empty() {
+            self.say(
+                MessageKind::Warning,
+                "no SIDM fits to plot: fit SIDM to a galaxy first",
+            );
+            return;
+        }
+        let mut curves = Vec::new();
+        if let Ok(cross_section) = self.runtime.particle.cross_section() {
+            let label = format!("particle: {}", self.runtime.particle.kind.name());
+            let (unaveraged, averaged) = linear_curves(&cross_section);
+            curves.push(PopulationCurve {
+                label: format!("{label}, <σv>/m ÷ <v_rel>"),
+                points: averaged,
+                dashed: false,
+                group: 0,
+            });
+            curves.push(PopulationCurve {
+                label: format!("{label}, σ(v)/m"),
+                points: unaveraged,
+                dashed: true,
+                group: 0,
+            });
+        }
+        for (k, fit) in self.runtime.population.iter().flatten().enumerate() {
+            if let Ok(cross_section) = fit.best_cross_section() {
+                curves.push(PopulationCurve {
+                    label: format!("fit: {} (best)", fit.model.name()),
+                    points: linear_curves(&cross_section).1,
+                    dashed: false,
+                    group: k + 1,
+                });
+            }
+        }
+        let Some(dir) = self.export_dir() else { return };
+        let figure = PopulationFigure {
+            title: "σ/m against collision velocity".into(),
+            points,
+            curves,
+        };
+        let path = dir.join(format!("population.{format}"));
         match save_figure(&figure, &path) {
             Ok(()) => self.say(MessageKind::Info, format!("wrote {}", path.display())),
             Err(e) => self.say(MessageKind::Error, format!("error: {e}")),

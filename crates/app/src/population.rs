@@ -47,26 +47,33 @@ pub fn curve_speeds() -> Vec<f64> {
         .collect()
 }
 
-/// A cross-section's curves in log10 plot coordinates: (unaveraged σ(v)/m at v,
-/// velocity-averaged <σv>/m / <v_rel> at <v_rel>).
+/// A cross-section's curves in physical units, (speed km/s, σ/m cm²/g): (unaveraged σ(v)/m at
+/// v, velocity-averaged <σv>/m / <v_rel> at <v_rel>), for exported figures.
 #[must_use]
-pub fn log_curves(cross_section: &CrossSection) -> (Vec<[f64; 2]>, Vec<[f64; 2]>) {
+pub fn linear_curves(cross_section: &CrossSection) -> (Vec<(f64, f64)>, Vec<(f64, f64)>) {
     let mut unaveraged = Vec::new();
     let mut averaged = Vec::new();
     for v in curve_speeds() {
         let sigma0 = dispersion_from_mean_relative_speed_kms(v);
-        let (s, e) = (
-            cross_section.sigma_m_cm2_g(v),
-            effective_sigma_m_cm2_g(cross_section, sigma0),
-        );
-        if s > 0.0 {
-            unaveraged.push([v.log10(), s.log10()]);
-        }
-        if e > 0.0 {
-            averaged.push([v.log10(), e.log10()]);
-        }
+        unaveraged.push((v, cross_section.sigma_m_cm2_g(v)));
+        averaged.push((v, effective_sigma_m_cm2_g(cross_section, sigma0)));
     }
     (unaveraged, averaged)
+}
+
+/// A cross-section's curves in log10 plot coordinates: (unaveraged σ(v)/m at v, velocity-averaged
+/// <σv>/m / <v_rel> at <v_rel>); non-positive values are left out.
+#[must_use]
+pub fn log_curves(cross_section: &CrossSection) -> (Vec<[f64; 2]>, Vec<[f64; 2]>) {
+    let logs = |points: Vec<(f64, f64)>| -> Vec<[f64; 2]> {
+        points
+            .into_iter()
+            .filter(|(_, s)| *s > 0.0)
+            .map(|(v, s)| [v.log10(), s.log10()])
+            .collect()
+    };
+    let (unaveraged, averaged) = linear_curves(cross_section);
+    (logs(unaveraged), logs(averaged))
 }
 
 /// The SIDM posteriors the population fit would use, cached until the fits in memory or the

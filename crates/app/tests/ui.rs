@@ -153,6 +153,12 @@ fn load_drag_fit_and_export() {
             + harness.query_all_by_label_contains("a tie").count()
             == 1
     );
+
+    // PNG in the Population view exports the population figure, not a rotation curve.
+    harness.get_by_role_and_label(Role::Button, "PNG").click();
+    harness.run();
+    let png = std::fs::read(export.join("population.png")).expect("population.png written");
+    assert!(png.starts_with(b"\x89PNG"));
     std::fs::remove_dir_all(&export).ok();
 }
 
