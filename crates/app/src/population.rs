@@ -47,10 +47,13 @@ pub fn curve_speeds() -> Vec<f64> {
         .collect()
 }
 
+/// A curve of (speed km/s, σ/m cm²/g) points.
+pub type SpeedCurve = Vec<(f64, f64)>;
+
 /// A cross-section's curves in physical units, (speed km/s, σ/m cm²/g): (unaveraged σ(v)/m at
 /// v, velocity-averaged <σv>/m / <v_rel> at <v_rel>), for exported figures.
 #[must_use]
-pub fn linear_curves(cross_section: &CrossSection) -> (Vec<(f64, f64)>, Vec<(f64, f64)>) {
+pub fn linear_curves(cross_section: &CrossSection) -> (SpeedCurve, SpeedCurve) {
     let mut unaveraged = Vec::new();
     let mut averaged = Vec::new();
     for v in curve_speeds() {
