@@ -5,7 +5,7 @@ use caldera_infer::summary::{clearly_preferred, evidence_words};
 use caldera_physics::ParamId;
 use egui::{Color32, RichText};
 use egui_plot::{
-    Bar, BarChart, Legend, Line, LineStyle, MarkerShape, Plot, PlotPoints, Points, VLine,
+    Bar, BarChart, Corner, Legend, Line, LineStyle, MarkerShape, Plot, PlotPoints, Points, VLine,
 };
 
 use crate::app::CalderaApp;
@@ -18,6 +18,37 @@ use crate::theme;
 /// Tick labels for axes that plot log10 values: the value itself.
 fn power_of_ten(mark: egui_plot::GridMark, _range: &std::ops::RangeInclusive<f64>) -> String {
     sig(10f64.powf(mark.value), 2)
+}
+
+/// The plot corner with the fewest data points near it (within 40% of each axis), for the
+/// legend; ties go to the lower right, where rotation curves are usually empty of data.
+fn emptiest_corner(x: &[f64], y: &[f64], x_max: f64, y_max: f64) -> Corner {
+    let crowd = |corner: Corner| {
+        x.iter()
+            .zip(y)
+            .filter(|&(&px, &py)| {
+                let (fx, fy) = (px / x_max, py / y_max.max(1e-9));
+                let near_x = match corner {
+                    Corner::LeftTop | Corner::LeftBottom => fx < 0.4,
+                    Corner::RightTop | Corner::RightBottom => fx > 0.6,
+                };
+                let near_y = match corner {
+                    Corner::LeftTop | Corner::RightTop => fy > 0.6,
+                    Corner::LeftBottom | Corner::RightBottom => fy < 0.4,
+                };
+                near_x && near_y
+            })
+            .count()
+    };
+    [
+        Corner::RightBottom,
+        Corner::LeftTop,
+        Corner::RightTop,
+        Corner::LeftBottom,
+    ]
+    .into_iter()
+    .min_by_key(|&corner| crowd(corner))
+    .unwrap_or(Corner::RightBottom)
 }
 
 impl CalderaApp {
@@ -385,18 +416,32 @@ impl CalderaApp {
         };
         let shade = |c: Color32| if dim { theme::dimmed(c) } else { c };
         let c = &curve.components;
-        let link = egui::Id::unique("caldera radius axis");
         let height = ui.available_height();
         let pairs = |r: &[f64], v: &[f64]| -> Vec<[f64; 2]> {
             r.iter().zip(v).map(|(&x, &y)| [x, y]).collect()
         };
-        Plot::new("rotation curve")
+        // One radius axis for the curve and the residuals, set by the data alone (0 to 8% past
+        // the last point) so it neither jumps while dragging nor stretches to reach r1; per
+        // galaxy, so a new galaxy starts from its own range.
+        let galaxy = self.runtime.selected.unwrap_or(0);
+        let link = egui::Id::unique(("caldera radius axis", galaxy));
+        let x_max = c.radius_kpc.iter().copied().fold(0.0, f64::max).max(1e-3) * 1.08;
+        let y_top = c
+            .v_obs_kms
+            .iter()
+            .zip(&c.v_err_kms)
+            .map(|(v, e)| v + e)
+            .fold(0.0, f64::max);
+        let legend_corner = emptiest_corner(&c.radius_kpc, &c.v_obs_kms, x_max, y_top);
+        Plot::new(("rotation curve", galaxy))
             .height(height * 0.68)
-            .legend(Legend::default())
+            .legend(Legend::default().position(legend_corner))
             .x_axis_label("Radius [kpc]")
             .y_axis_label("Circular velocity [km/s]")
             .link_axis(link, [true, false])
+            .default_x_bounds(0.0, x_max)
             .include_y(0.0)
+            .show_crosshair(false)
             .show(ui, |plot| {
                 for (k, ((&r, &v), &e)) in c
                     .radius_kpc
@@ -459,16 +504,45 @@ impl CalderaApp {
                     .width(3.0)
                     .id("total"),
                 );
-                if let Some(r1) = c.r1_kpc {
-                    plot.vline(VLine::new("r1", r1).color(shade(theme::MARKER)).id("r1"));
-                }
-                if let Some(rc) = c.core_radius_kpc {
-                    plot.vline(
-                        VLine::new("core radius", rc)
+                // Markers: r1 long-dashed, the core radius dotted, both thicker than the grid;
+                // beyond the data they become an edge label with their value.
+                let markers = [
+                    (
+                        "r1 (each particle scattered once)",
+                        "r1",
+                        c.r1_kpc,
+                        egui_plot::LineStyle::dashed_loose(),
+                    ),
+                    (
+                        "core radius",
+                        "core radius",
+                        c.core_radius_kpc,
+                        egui_plot::LineStyle::dotted_dense(),
+                    ),
+                ];
+                for (k, (name, short, radius, style)) in markers.into_iter().enumerate() {
+                    let Some(r) = radius else { continue };
+                    if r <= x_max {
+                        plot.vline(
+                            VLine::new(name, r)
+                                .color(shade(theme::MARKER))
+                                .width(2.0)
+                                .style(style)
+                                .id(("marker", k)),
+                        );
+                    } else {
+                        let y = y_top * (0.95 - 0.08 * k as f64);
+                        plot.text(
+                            egui_plot::Text::new(
+                                name,
+                                [x_max * 0.99, y].into(),
+                                format!("{short} = {} kpc →", crate::format::sig(r, 3)),
+                            )
+                            .anchor(egui::Align2::RIGHT_CENTER)
                             .color(shade(theme::MARKER))
-                            .style(egui_plot::LineStyle::dashed_dense())
-                            .id("core"),
-                    );
+                            .id(("marker label", k)),
+                        );
+                    }
                 }
             });
         let residuals: Vec<[f64; 2]> = c
@@ -477,12 +551,13 @@ impl CalderaApp {
             .zip(c.v_obs_kms.iter().zip(&c.v_model_kms).zip(&c.v_err_kms))
             .map(|(&r, ((&o, &m), &e))| [r, (o - m) / e])
             .collect();
-        Plot::new("residuals")
+        Plot::new(("residuals", galaxy))
             .height(ui.available_height())
             .x_axis_label("Radius [kpc]")
             .y_axis_label("(V_obs − V_model)/σ")
             .link_axis(link, [true, false])
-            .include_x(0.0)
+            .default_x_bounds(0.0, x_max)
+            .show_crosshair(false)
             .include_y(-3.0)
             .include_y(3.0)
             .show(ui, |plot| {
