@@ -84,6 +84,10 @@ impl CalderaApp {
                 population_job: None,
                 population_partial: Vec::new(),
                 exclude_unconverged: true,
+                open_text: None,
+                recent: Vec::new(),
+                show_galaxies: None,
+                show_controls: None,
                 population: None,
                 population_inputs: None,
                 loading: None,
@@ -693,6 +697,18 @@ impl CalderaApp {
             Command::SaveSession => {
                 self.save_session();
             }
+            Command::ShowOpenWindow(show) => {
+                self.runtime.open_text = show.then(|| {
+                    self.session
+                        .catalogue
+                        .as_ref()
+                        .map(|p| p.display().to_string())
+                        .unwrap_or_default()
+                });
+            }
+            Command::OpenText(text) => self.runtime.open_text = Some(text),
+            Command::ShowGalaxies(show) => self.runtime.show_galaxies = show,
+            Command::ShowControls(show) => self.runtime.show_controls = show,
             Command::OpenDialog => {
                 self.runtime.dialog = Some(Job::spawn("file dialog", |ctx| {
                     let picked = rfd::FileDialog::new()
@@ -706,6 +722,10 @@ impl CalderaApp {
                 }));
             }
             Command::OpenPath(path) => {
+                self.runtime.open_text = None;
+                self.runtime.recent.retain(|p| *p != path);
+                self.runtime.recent.insert(0, path.clone());
+                self.runtime.recent.truncate(8);
                 if path.extension().is_some_and(|e| e == "ron") {
                     self.open_session(&path);
                 } else {
@@ -945,27 +965,39 @@ impl eframe::App for CalderaApp {
         egui::Panel::bottom("messages")
             .resizable(true)
             .show(ui, |ui| self.messages_ui(ui));
-        egui::Panel::left("galaxies")
-            .resizable(true)
-            .default_size(330.0)
-            .show(ui, |ui| self.catalogue_ui(ui, &mut commands));
-        egui::Panel::right("controls")
-            .resizable(true)
-            .default_size(330.0)
-            .show(ui, |ui| {
-                egui::ScrollArea::vertical().show(ui, |ui| match self.runtime.view {
-                    View::Galaxy => {
-                        self.controls_ui(ui, &mut commands);
-                        ui.separator();
-                        self.fit_ui(ui, &mut commands);
-                    }
-                    View::Population => self.population_controls_ui(ui, &mut commands),
+        // Side panels collapse on narrow windows (or when the user hides them) and take at most
+        // a fair share of the width, so the plot always keeps room.
+        let (show_galaxies, show_controls) = self.side_panels_shown(&ctx);
+        let width = ctx.content_rect().width();
+        if show_galaxies {
+            egui::Panel::left("galaxies")
+                .resizable(true)
+                .default_size((0.22 * width).clamp(180.0, 330.0))
+                .show(ui, |ui| {
+                    egui::ScrollArea::vertical()
+                        .show(ui, |ui| self.catalogue_ui(ui, &mut commands));
                 });
-            });
+        }
+        if show_controls {
+            egui::Panel::right("controls")
+                .resizable(true)
+                .default_size((0.3 * width).clamp(240.0, 330.0))
+                .show(ui, |ui| {
+                    egui::ScrollArea::vertical().show(ui, |ui| match self.runtime.view {
+                        View::Galaxy => {
+                            self.controls_ui(ui, &mut commands);
+                            ui.separator();
+                            self.fit_ui(ui, &mut commands);
+                        }
+                        View::Population => self.population_controls_ui(ui, &mut commands),
+                    });
+                });
+        }
         egui::CentralPanel::default().show(ui, |ui| match self.runtime.view {
             View::Galaxy => self.curve_ui(ui),
             View::Population => self.population_ui(ui, &mut commands),
         });
+        self.open_ui(&ctx, &mut commands);
         self.mapping_ui(&ctx, &mut commands);
         self.quit_ui(&ctx, &mut commands);
         for command in commands {

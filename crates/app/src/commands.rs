@@ -19,6 +19,13 @@ pub enum Command {
     ExportFigure(&'static str),
     SaveSession,
     OpenDialog,
+    /// Show (true) or close the Open window with its path field and recent paths.
+    ShowOpenWindow(bool),
+    /// The text of the Open window's path field.
+    OpenText(String),
+    /// Show or hide a side panel (None: by the window's width).
+    ShowGalaxies(Option<bool>),
+    ShowControls(Option<bool>),
     OpenPath(PathBuf),
     LoadWithMapping,
     SetView(View),

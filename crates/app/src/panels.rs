@@ -3,6 +3,8 @@
 use caldera_data::session::HaloModel;
 use caldera_infer::summary::{clearly_preferred, evidence_words};
 use caldera_physics::ParamId;
+use std::path::PathBuf;
+
 use egui::{Color32, RichText};
 use egui_plot::{
     Bar, BarChart, Corner, Legend, Line, LineStyle, MarkerShape, Plot, PlotPoints, Points, VLine,
@@ -54,8 +56,8 @@ fn emptiest_corner(x: &[f64], y: &[f64], x_max: f64, y_max: f64) -> Corner {
 impl CalderaApp {
     pub(crate) fn toolbar_ui(&self, ui: &mut egui::Ui, commands: &mut Vec<Command>) {
         ui.horizontal_wrapped(|ui| {
-            if ui.button("Open…").on_hover_text("Open a galaxy table (ECSV, CSV, whitespace) or a session; or drop files on the window").clicked() {
-                commands.push(Command::OpenDialog);
+            if ui.button("Open…").on_hover_text("Open a galaxy table (ECSV, CSV, whitespace), a catalogue folder or a session: type its path, browse, or drop files on the window").clicked() {
+                commands.push(Command::ShowOpenWindow(true));
             }
             if ui.button("Save session").clicked() {
                 commands.push(Command::SaveSession);
@@ -81,10 +83,87 @@ impl CalderaApp {
             if ui.selectable_label(view == View::Population, "Population").clicked() {
                 commands.push(Command::SetView(View::Population));
             }
+            ui.separator();
+            let (galaxies, controls) = self.side_panels_shown(ui.ctx());
+            if ui
+                .selectable_label(galaxies, "Galaxies")
+                .on_hover_text("Show or hide the galaxy list")
+                .clicked()
+            {
+                commands.push(Command::ShowGalaxies(Some(!galaxies)));
+            }
+            if ui
+                .selectable_label(controls, "Controls")
+                .on_hover_text("Show or hide the side panel of controls")
+                .clicked()
+            {
+                commands.push(Command::ShowControls(Some(!controls)));
+            }
             if self.runtime.dirty {
                 ui.label(RichText::new("unsaved changes").color(theme::WARNING));
             }
         });
+    }
+
+    /// Whether the galaxy list and the controls show: as the user chose, else by the window's
+    /// width (narrow windows keep the plot and the controls, then the plot alone).
+    pub(crate) fn side_panels_shown(&self, ctx: &egui::Context) -> (bool, bool) {
+        let width = ctx.content_rect().width();
+        (
+            self.runtime.show_galaxies.unwrap_or(width >= 1100.0),
+            self.runtime.show_controls.unwrap_or(width >= 760.0),
+        )
+    }
+
+    /// The Open window: a path field (always works), a file dialog (where the desktop offers
+    /// one), and the paths opened in this run.
+    pub(crate) fn open_ui(&self, ctx: &egui::Context, commands: &mut Vec<Command>) {
+        let Some(text) = &self.runtime.open_text else {
+            return;
+        };
+        let mut open = true;
+        let mut typed = text.clone();
+        egui::Window::new("Open")
+            .open(&mut open)
+            .collapsible(false)
+            .show(ctx, |ui| {
+                ui.label("A galaxy table, a catalogue folder, or a session (.ron):");
+                let field = ui.add(
+                    egui::TextEdit::singleline(&mut typed)
+                        .desired_width(420.0)
+                        .hint_text("path/to/galaxy.ecsv or path/to/folder"),
+                );
+                let entered = field.lost_focus() && ui.input(|i| i.key_pressed(egui::Key::Enter));
+                ui.horizontal(|ui| {
+                    if (ui.button("Open this path").clicked() || entered) && !typed.trim().is_empty() {
+                        commands.push(Command::OpenPath(PathBuf::from(typed.trim())));
+                    }
+                    if ui
+                        .button("Browse…")
+                        .on_hover_text("The desktop's file dialog (through its portal or zenity)")
+                        .clicked()
+                    {
+                        commands.push(Command::OpenDialog);
+                    }
+                });
+                if self.runtime.dialog.is_some() {
+                    ui.label("Waiting for the file dialog… If none appears, this desktop offers none: type the path above.");
+                }
+                if !self.runtime.recent.is_empty() {
+                    ui.separator();
+                    ui.label("Opened in this run:");
+                    for path in &self.runtime.recent {
+                        if ui.link(path.display().to_string()).clicked() {
+                            commands.push(Command::OpenPath(path.clone()));
+                        }
+                    }
+                }
+            });
+        if !open {
+            commands.push(Command::ShowOpenWindow(false));
+        } else if typed != *text {
+            commands.push(Command::OpenText(typed));
+        }
     }
 
     pub(crate) fn messages_ui(&self, ui: &mut egui::Ui) {
@@ -94,9 +173,7 @@ impl CalderaApp {
             .show(ui, |ui| {
                 for message in &self.runtime.messages {
                     ui.label(
-                        RichText::new(&message.text)
-                            .color(theme::message_colour(message.kind))
-                            .small(),
+                        RichText::new(&message.text).color(theme::message_colour(message.kind)),
                     );
                 }
             });
@@ -204,6 +281,8 @@ impl CalderaApp {
 
     pub(crate) fn controls_ui(&self, ui: &mut egui::Ui, commands: &mut Vec<Command>) {
         ui.heading("Halo model");
+        // Wide sliders: σ/m spans four decades, and each should get a usable stretch of slider.
+        ui.spacing_mut().slider_width = (ui.available_width() - 130.0).clamp(120.0, 260.0);
         let Some(before) = self.current_settings() else {
             ui.label("Open a galaxy table to start.");
             return;
@@ -822,6 +901,9 @@ fn histogram_ui(ui: &mut egui::Ui, name: &str, values: &[f64]) {
         .x_axis_label(name.to_string())
         .allow_drag(false)
         .allow_zoom(false)
+        .allow_scroll(false)
+        .allow_boxed_zoom(false)
+        .show_crosshair(false)
         .show(ui, |plot| {
             plot.bar_chart(
                 BarChart::new(name, bars)

@@ -145,6 +145,13 @@ pub(crate) struct Runtime {
     pub(crate) mapping: Option<MappingStep>,
     pub(crate) particle: ParticleModel,
     pub(crate) population_job: Option<Job<PopulationProgress, Result<PopulationFit, InferError>>>,
+    /// The Open window's path field, while the window is open.
+    pub(crate) open_text: Option<String>,
+    /// Tables, folders and sessions opened in this run, newest first.
+    pub(crate) recent: Vec<PathBuf>,
+    /// Side panels shown or hidden by the user (None: by the window's width).
+    pub(crate) show_galaxies: Option<bool>,
+    pub(crate) show_controls: Option<bool>,
     /// Leave galaxies whose SIDM chain did not converge out of population fits.
     pub(crate) exclude_unconverged: bool,
     /// Population fits finished so far by the running job.

@@ -220,3 +220,41 @@ fn use_best_fit_reproduces_the_fit() {
     }
     std::fs::remove_dir_all(&export).ok();
 }
+
+#[test]
+fn small_windows_keep_the_plot_and_let_panels_come_back() {
+    // At 800×500 the galaxy list folds away (the plot and the controls keep their room); the
+    // toolbar's "Galaxies" brings it back.
+    let (options, export) = options("small");
+    let mut harness = Harness::builder()
+        .with_size([800.0, 500.0])
+        .build_eframe(move |cc| CalderaApp::new(cc, options));
+    settle(&mut harness);
+    assert!(harness.query_by_label("Kiln D02").is_none());
+    let _ = harness.get_by_role_and_label(Role::Slider, "σ/m [cm²/g]");
+    harness.get_by_label("Galaxies").click();
+    harness.run();
+    let _ = harness.get_by_label("Kiln D02");
+    std::fs::remove_dir_all(&export).ok();
+}
+
+#[test]
+fn a_typed_path_opens_where_no_file_dialog_exists() {
+    // The Open window's path field works on every desktop (no portal needed).
+    let (mut options, export) = options("open");
+    let demo = options.catalogue.take().expect("the demo folder");
+    let mut harness = harness(options);
+    assert!(harness.state().galaxy_names().is_empty());
+    harness.get_by_label("Open…").click();
+    harness.run();
+    harness.get_by_role(Role::TextInput).click();
+    harness.run();
+    harness
+        .get_by_role(Role::TextInput)
+        .type_text(&demo.join("kiln_d05.ecsv").to_string_lossy());
+    harness.run();
+    harness.get_by_label("Open this path").click();
+    settle(&mut harness);
+    assert_eq!(harness.state().galaxy_names(), vec!["Kiln D05".to_string()]);
+    std::fs::remove_dir_all(&export).ok();
+}
