@@ -107,7 +107,7 @@ fn catalogue_run_writes_everything_resumes_and_merges_shards_bit_for_bit() {
     );
     // The halo age is quoted with every result (the SIDM σ/m scales almost as 1/age).
     let header = csv.lines().find(|l| !l.starts_with('#')).expect("a header");
-    assert!(header.split(',').any(|c| c == "age"), "{header}");
+    assert!(header.split(',').any(|c| c == "age [Gyr]"), "{header}");
     let tex = String::from_utf8(read(&whole.join("results.tex"))).expect("text");
     assert!(tex.contains("\\begin{tabular}"));
     assert!(tex.contains("t_{\\rm age}"), "{tex}");
