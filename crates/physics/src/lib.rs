@@ -1,9 +1,13 @@
 //! Caldera's physics engine: units, baryonic mass components, halo profiles and the
 //! isothermal-Jeans SIDM halo. No I/O, no UI.
 //!
-//! Main types: [`Nfw`], [`Burkert`], [`PseudoIsothermal`] and [`SidmHalo`] behind the
-//! [`HaloProfile`] trait; [`BaryonTable`], [`Hernquist`] and [`ExponentialDisk`] behind
-//! [`EnclosedMass`]; [`CrossSection`]; [`Cosmology`]. Constants live in [`units`].
+//! Main types: the model description — [`ParamId`] (what a parameter is: key, label, unit) and
+//! [`ParamValues`], halo families behind [`HaloFamily`] with the registry [`HaloModel`],
+//! cross-section kinds described once ([`CrossSectionKind`]); [`Nfw`], [`Burkert`],
+//! [`PseudoIsothermal`], [`Einasto`] and [`SidmHalo`] behind the [`HaloProfile`] trait;
+//! [`BaryonRows`] (a table's one baryonic mass model), [`BaryonTable`], [`Hernquist`] and
+//! [`ExponentialDisk`] behind [`EnclosedMass`]; [`CrossSection`]; [`Cosmology`]. Constants live
+//! in [`units`].
 //!
 //! ```
 //! use caldera_physics::{CrossSection, Cosmology, HaloProfile, NoBaryons, SidmSetup, sidm};
