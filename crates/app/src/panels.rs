@@ -3,6 +3,7 @@
 use caldera_data::session::HaloModel;
 use caldera_infer::summary::{clearly_preferred, evidence_words};
 use caldera_physics::ParamId;
+use caldera_physics::units::BARN_PER_GEV_PER_CM2_PER_G;
 use std::path::PathBuf;
 
 use egui::{Color32, RichText};
@@ -657,7 +658,9 @@ impl CalderaApp {
         let response = Plot::new("population")
             .legend(Legend::default())
             .x_axis_label("<v_rel> [km/s] (σ(v)/m: relative speed v)")
-            .y_axis_label("σ/m [cm²/g]  (1 cm²/g = 1.78 barn/GeV)")
+            .y_axis_label(format!(
+                "σ/m [cm²/g]  (1 cm²/g = {BARN_PER_GEV_PER_CM2_PER_G:.2} barn/GeV)"
+            ))
             .x_axis_formatter(power_of_ten)
             .y_axis_formatter(power_of_ten)
             .show(ui, |plot| {

@@ -72,9 +72,9 @@ impl CalderaApp {
                     sig(cross_section.sigma_v_over_m_cm2_g_kms(sigma0), 3)
                 ));
                 ui.label(
-                    RichText::new(
-                        "Solid: <σv>/m ÷ <v_rel>, what a galaxy measures; dashed: σ(v)/m. 1 cm²/g = 1.78 barn/GeV.",
-                    )
+                    RichText::new(format!(
+                        "Solid: <σv>/m ÷ <v_rel>, what a galaxy measures; dashed: σ(v)/m. 1 cm²/g = {BARN_PER_GEV_PER_CM2_PER_G:.2} barn/GeV."
+                    ))
                     .small(),
                 );
             }

@@ -8,6 +8,7 @@ use plotters::coord::Shift;
 use plotters::prelude::*;
 
 use caldera_infer::summary::Interval;
+use caldera_physics::units::BARN_PER_GEV_PER_CM2_PER_G;
 
 use crate::ReportError;
 use crate::theme;
@@ -502,7 +503,9 @@ impl Figure for PopulationFigure {
             .configure_mesh()
             .disable_mesh()
             .x_desc("Mean relative velocity <v_rel> [km/s]")
-            .y_desc("σ/m [cm²/g]  (1 cm²/g = 1.78 barn/GeV)")
+            .y_desc(format!(
+                "σ/m [cm²/g]  (1 cm²/g = {BARN_PER_GEV_PER_CM2_PER_G:.2} barn/GeV)"
+            ))
             .x_label_formatter(&|v| log_tick(*v))
             .y_label_formatter(&|v| log_tick(*v))
             .label_style(font(theme::TICK_SIZE))

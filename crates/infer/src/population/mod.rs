@@ -18,7 +18,7 @@ use rand_xoshiro::Xoshiro256PlusPlus;
 use serde::{Deserialize, Serialize};
 
 use caldera_data::OutsideConstraint;
-use caldera_physics::cross_section::{dispersion_from_mean_relative_speed_kms, mev_to_gev};
+use caldera_physics::cross_section::dispersion_from_mean_relative_speed_kms;
 use caldera_physics::{HaloModel, ParamId, Transform};
 
 use crate::InferError;
@@ -397,8 +397,11 @@ pub fn fit_population<O: Observer>(
         let born: Vec<f64> = {
             let mut v: Vec<f64> = samples
                 .iter()
-                .map(|t| {
-                    10f64.powf(t[0]) * settings.yukawa_dm_mass_gev / mev_to_gev(10f64.powf(t[1]))
+                .filter_map(|t| {
+                    model
+                        .cross_section(t, settings.yukawa_dm_mass_gev)
+                        .ok()?
+                        .born_parameter()
                 })
                 .collect();
             v.sort_by(f64::total_cmp);
