@@ -289,10 +289,8 @@ impl BaryonTable {
 /// no rotation and are left out of the mass model (it grows as r³ inside the first radius).
 #[derive(Debug, Clone, PartialEq)]
 pub struct BaryonRows {
-    /// Signed squares of gas, disk and bulge at each row, (km/s)².
-    gas2: Vec<f64>,
-    disk2: Vec<f64>,
-    bulge2: Vec<f64>,
+    /// Each row's velocities (disk and bulge at Υ = 1), km/s.
+    rows: Vec<BaryonVelocities>,
     /// Rows grouped by radius: (radius in kpc, first row, count); only radii > 0.
     unique: Vec<(f64, usize, usize)>,
 }
@@ -335,12 +333,13 @@ impl BaryonRows {
             ));
         }
         Ok(Self {
-            gas2: v_gas_kms.iter().copied().map(signed_square).collect(),
-            disk2: v_disk_kms.iter().copied().map(signed_square).collect(),
-            bulge2: v_bulge_kms.map_or_else(
-                || vec![0.0; n],
-                |b| b.iter().copied().map(signed_square).collect(),
-            ),
+            rows: (0..n)
+                .map(|i| BaryonVelocities {
+                    gas_kms: v_gas_kms[i],
+                    disk_kms: v_disk_kms[i],
+                    bulge_kms: v_bulge_kms.map_or(0.0, |b| b[i]),
+                })
+                .collect(),
             unique,
         })
     }
@@ -348,13 +347,13 @@ impl BaryonRows {
     /// Number of rows.
     #[must_use]
     pub fn len(&self) -> usize {
-        self.gas2.len()
+        self.rows.len()
     }
 
     /// True when there are no rows.
     #[must_use]
     pub fn is_empty(&self) -> bool {
-        self.gas2.is_empty()
+        self.rows.is_empty()
     }
 
     /// Signed V_b² at each row, (km/s)², at Υ's and distance factor `distance_factor`.
@@ -365,11 +364,9 @@ impl BaryonRows {
         upsilon_bulge: f64,
         distance_factor: f64,
     ) -> Vec<f64> {
-        (0..self.len())
-            .map(|i| {
-                distance_factor
-                    * (self.gas2[i] + upsilon_disk * self.disk2[i] + upsilon_bulge * self.bulge2[i])
-            })
+        self.rows
+            .iter()
+            .map(|row| distance_factor * row.v_squared_kms2(upsilon_disk, upsilon_bulge))
             .collect()
     }
 
@@ -381,15 +378,15 @@ impl BaryonRows {
         upsilon: f64,
         distance_factor: f64,
     ) -> Vec<f64> {
-        let squares = match component {
-            BaryonComponent::Gas => &self.gas2,
-            BaryonComponent::Disk => &self.disk2,
-            BaryonComponent::Bulge => &self.bulge2,
-        };
-        squares
+        self.rows
             .iter()
-            .map(|x| {
-                let v2 = distance_factor * upsilon * x;
+            .map(|row| {
+                let v = match component {
+                    BaryonComponent::Gas => row.gas_kms,
+                    BaryonComponent::Disk => row.disk_kms,
+                    BaryonComponent::Bulge => row.bulge_kms,
+                };
+                let v2 = distance_factor * upsilon * signed_square(v);
                 v2.signum() * v2.abs().sqrt()
             })
             .collect()
