@@ -655,8 +655,9 @@ impl CalderaApp {
         ui.label("σ/m against <v_rel> for every galaxy fitted with SIDM (log axes). Click a point to open its galaxy.");
         let names = self.galaxy_names();
         let mut points: Vec<(usize, [f64; 2])> = Vec::new();
+        // The lower left (slow collisions, small σ/m) is where no galaxy sits.
         let response = Plot::new("population")
-            .legend(Legend::default())
+            .legend(Legend::default().position(Corner::LeftBottom))
             .x_axis_label("<v_rel> [km/s] (σ(v)/m: relative speed v)")
             .y_axis_label(format!(
                 "σ/m [cm²/g]  (1 cm²/g = {BARN_PER_GEV_PER_CM2_PER_G:.2} barn/GeV)"

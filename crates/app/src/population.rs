@@ -34,8 +34,10 @@ impl ParticleModel {
 }
 
 impl Default for ParticleModel {
+    /// The fall-off at its defaults: it lies over the demo data, and unlike a Yukawa that
+    /// would (α m_χ / m_φ > 1) it is not outside its own regime of validity.
     fn default() -> Self {
-        Self::new(VelocityModel::Yukawa)
+        Self::new(VelocityModel::FallOff)
     }
 }
 

@@ -115,6 +115,11 @@ fn load_drag_fit_and_export() {
     harness.run();
     let _ = harness.get_by_label_contains("σ/m at v = 100 km/s");
     assert!(harness.query_all_by_label_contains("barn/GeV").count() >= 2);
+    // Switch the particle model to Yukawa, then move its coupling.
+    harness.get_by_role(Role::ComboBox).click();
+    harness.run();
+    harness.get_by_label("yukawa").click();
+    harness.run();
     let before = harness.state().particle().clone();
     harness
         .get_by_role_and_label(Role::Slider, "α")

@@ -81,14 +81,14 @@ pub fn evidence_words(delta: f64) -> &'static str {
     }
 }
 
-/// The clearly preferred entry by an information criterion: the lowest value, but only when the
-/// runner-up is at least 2 above it (otherwise a tie, None); `criterion` picks BIC or AIC.
+/// The clearly preferred entry by an information criterion: the lowest value, but only when
+/// there is a runner-up and it is at least 2 above it (otherwise None: a tie, or nothing to
+/// compare); `criterion` picks BIC or AIC.
 #[must_use]
 pub fn clearly_preferred<T>(items: &[T], criterion: impl Fn(&T) -> f64) -> Option<&T> {
     let mut sorted: Vec<&T> = items.iter().filter(|t| criterion(t).is_finite()).collect();
     sorted.sort_by(|a, b| criterion(a).total_cmp(&criterion(b)));
     match sorted.as_slice() {
-        [best] => Some(best),
         [best, second, ..] if criterion(second) - criterion(best) >= 2.0 => Some(best),
         _ => None,
     }
@@ -132,5 +132,6 @@ mod tests {
         assert!(clearly_preferred(&bic, |b| *b).is_none());
         let bic = [10.0, 13.0];
         assert_eq!(clearly_preferred(&bic, |b| *b), Some(&10.0));
+        assert!(clearly_preferred(&[10.0], |b| *b).is_none());
     }
 }

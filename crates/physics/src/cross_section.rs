@@ -102,8 +102,9 @@ const FALL_OFF_PARAMS: [CrossSectionParam; 2] = [
     xs_param("w", "w", "km/s", (0.5, 4.0), 200.0),
 ];
 const YUKAWA_PARAMS: [CrossSectionParam; 3] = [
-    xs_param("alpha", "α", "", (-9.0, -1.0), 6e-4),
-    xs_param("m_phi", "m_φ", "MeV", (-2.0, 3.0), 5.0),
+    // Defaults inside the Born regime (α m_χ / m_φ ≈ 0.08).
+    xs_param("alpha", "α", "", (-9.0, -1.0), 1e-5),
+    xs_param("m_phi", "m_φ", "MeV", (-2.0, 3.0), 1.2),
     CrossSectionParam {
         held_in_population_fits: true,
         ..xs_param(

@@ -52,7 +52,7 @@ pub struct PopulationSettings {
 impl Default for PopulationSettings {
     fn default() -> Self {
         Self {
-            yukawa_dm_mass_gev: 10.0,
+            yukawa_dm_mass_gev: caldera_physics::cross_section::DEFAULT_YUKAWA_DM_MASS_GEV,
             max_samples_per_galaxy: 600,
             n_walkers: 24,
             run: RunConfig {
