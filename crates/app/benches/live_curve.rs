@@ -41,7 +41,7 @@ fn benches(c: &mut Criterion) {
                 ..settings.clone()
             };
             let curve = live_curve(&table, &changed, &cosmology, previous);
-            previous = curve.ok().and_then(|c| c.rho0_msun_kpc3.zip(c.sigma0_kms));
+            previous = curve.ok().and_then(|c| c.sidm_core());
             let ms = start.elapsed().as_secs_f64() * 1e3;
             worst = worst.max(ms);
             total += ms;
@@ -55,7 +55,7 @@ fn benches(c: &mut Criterion) {
         // One drag step (σ/m from 1 to 1.02 cm²/g) following the previous solution, and the same
         // change solved afresh.
         let base = live_curve(&table, &settings, &cosmology, None).expect("a curve");
-        let guess = base.rho0_msun_kpc3.zip(base.sigma0_kms);
+        let guess = base.sidm_core();
         let step = GalaxySettings {
             sigma_m_cm2_g: 1.02,
             ..settings.clone()

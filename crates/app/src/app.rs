@@ -29,6 +29,19 @@ use crate::worker::{
     start_session_load, start_table_load,
 };
 
+/// The outputs a job in `slot` has produced since the last frame; the slot empties once the job
+/// has finished.
+fn take_outputs<P, T>(slot: &mut Option<Job<P, T>>) -> Vec<T> {
+    let Some(job) = slot else {
+        return Vec::new();
+    };
+    let outputs = job.poll();
+    if job.is_done() {
+        *slot = None;
+    }
+    outputs
+}
+
 /// The app: the saved session and the runtime.
 pub struct CalderaApp {
     pub session: Session,
@@ -355,9 +368,7 @@ impl CalderaApp {
             &self.runtime.live,
         ) {
             (Some(core), _, _) => Some(core),
-            (None, Some((k, _)), Some(curve)) if *k == i => {
-                curve.rho0_msun_kpc3.zip(curve.sigma0_kms)
-            }
+            (None, Some((k, _)), Some(curve)) if *k == i => curve.sidm_core(),
             _ => None,
         };
         match live_curve(table, &settings, &self.session.fit.cosmology, previous) {
@@ -448,70 +459,39 @@ impl CalderaApp {
     /// Takes what the background jobs finished: a catalogue read, a run folder's posteriors,
     /// fits, population fits, a file picked in the dialog.
     fn poll_jobs(&mut self, ctx: &egui::Context) {
-        if let Some(job) = &mut self.runtime.loading {
-            let outputs = job.poll();
-            let done = job.is_done();
-            for (path, read, loaded) in outputs {
-                self.finish_catalogue(&path, &read, loaded);
-            }
-            if done {
-                self.runtime.loading = None;
-            }
+        for (path, (read, loaded)) in take_outputs(&mut self.runtime.loading) {
+            self.finish_catalogue(&path, &read, loaded);
         }
-        if let Some(job) = &mut self.runtime.folder_load {
-            let outputs = job.poll();
-            let done = job.is_done();
-            for (folder, loaded) in outputs {
-                match loaded {
-                    Ok(posteriors) => {
-                        self.say(
-                            MessageKind::Info,
-                            format!(
-                                "read {} SIDM posteriors from {}",
-                                posteriors.posteriors.len(),
-                                folder.display()
-                            ),
-                        );
-                        self.runtime.folder_posteriors = Some((folder, posteriors));
-                    }
-                    Err(e) => self.say(MessageKind::Error, format!("error: {e}")),
+        for (folder, loaded) in take_outputs(&mut self.runtime.folder_load) {
+            match loaded {
+                Ok(posteriors) => {
+                    self.say(
+                        MessageKind::Info,
+                        format!(
+                            "read {} SIDM posteriors from {}",
+                            posteriors.posteriors.len(),
+                            folder.display()
+                        ),
+                    );
+                    self.runtime.folder_posteriors = Some((folder, posteriors));
                 }
-            }
-            if done {
-                self.runtime.folder_load = None;
+                Err(e) => self.say(MessageKind::Error, format!("error: {e}")),
             }
         }
-        if let Some(job) = &mut self.runtime.session_load {
-            let outputs = job.poll();
-            let done = job.is_done();
-            for (path, loaded) in outputs {
-                self.finish_session(&path, loaded);
-            }
-            if done {
-                self.runtime.session_load = None;
-            }
+        for (path, loaded) in take_outputs(&mut self.runtime.session_load) {
+            self.finish_session(&path, loaded);
         }
-        if let Some(job) = &mut self.runtime.table_load {
-            let outputs = job.poll();
-            let done = job.is_done();
-            for (path, read, loaded) in outputs {
-                self.finish_table_with_mapping(path, read, loaded);
-            }
-            if done {
-                self.runtime.table_load = None;
-            }
+        for (path, (read, loaded)) in take_outputs(&mut self.runtime.table_load) {
+            self.finish_table_with_mapping(path, read, loaded);
         }
         self.poll_worker();
         self.poll_population();
-        if let Some(job) = &mut self.runtime.dialog {
-            let picked = job.poll().into_iter().flatten().next();
-            let done = job.is_done();
-            if done {
-                self.runtime.dialog = None;
-            }
-            if let Some(path) = picked {
-                self.apply(Command::OpenPath(path), ctx);
-            }
+        if let Some(path) = take_outputs(&mut self.runtime.dialog)
+            .into_iter()
+            .flatten()
+            .next()
+        {
+            self.apply(Command::OpenPath(path), ctx);
         }
     }
 

@@ -20,7 +20,7 @@ fn superscript(exponent: i32) -> String {
 /// `value` with `digits` significant figures: plain decimals between 10⁻³ and 10⁵, otherwise
 /// "m×10ᵉ". Trailing zeros after a decimal point are kept (they are significant).
 #[must_use]
-pub fn sig(value: f64, digits: u32) -> String {
+pub fn significant(value: f64, digits: u32) -> String {
     if !value.is_finite() {
         return "–".into();
     }
@@ -52,7 +52,7 @@ pub fn interval(i: &Interval, unit: &str) -> String {
         format!(" {unit}")
     };
     if let Some(limit) = i.upper95 {
-        return format!("< {}{unit} (95% upper limit)", sig(limit, 2));
+        return format!("< {}{unit} (95% upper limit)", significant(limit, 2));
     }
     let (up, down) = (i.p84 - i.median, i.median - i.p16);
     let smaller = up.min(down).abs();
@@ -64,9 +64,9 @@ pub fn interval(i: &Interval, unit: &str) -> String {
     };
     format!(
         "{} (+{} / −{}){unit}  (median, 16–84%)",
-        sig(i.median, digits),
-        sig(up, 2),
-        sig(down, 2)
+        significant(i.median, digits),
+        significant(up, 2),
+        significant(down, 2)
     )
 }
 
@@ -76,16 +76,16 @@ mod tests {
 
     #[test]
     fn significant_figures_and_superscripts() {
-        assert_eq!(sig(7.414, 2), "7.4");
-        assert_eq!(sig(22.455, 2), "22");
-        assert_eq!(sig(0.316, 2), "0.32");
-        assert_eq!(sig(9.96, 2), "10");
-        assert_eq!(sig(47_091_051.078, 3), "4.71×10⁷");
-        assert_eq!(sig(35_940_220_946.16, 3), "3.59×10¹⁰");
-        assert_eq!(sig(1e-8, 2), "1.0×10⁻⁸");
-        assert_eq!(sig(-0.000_012_3, 2), "-1.2×10⁻⁵");
-        assert_eq!(sig(99_999.0, 2), "1.0×10⁵");
-        assert_eq!(sig(0.0, 3), "0");
+        assert_eq!(significant(7.414, 2), "7.4");
+        assert_eq!(significant(22.455, 2), "22");
+        assert_eq!(significant(0.316, 2), "0.32");
+        assert_eq!(significant(9.96, 2), "10");
+        assert_eq!(significant(47_091_051.078, 3), "4.71×10⁷");
+        assert_eq!(significant(35_940_220_946.16, 3), "3.59×10¹⁰");
+        assert_eq!(significant(1e-8, 2), "1.0×10⁻⁸");
+        assert_eq!(significant(-0.000_012_3, 2), "-1.2×10⁻⁵");
+        assert_eq!(significant(99_999.0, 2), "1.0×10⁵");
+        assert_eq!(significant(0.0, 3), "0");
     }
 
     #[test]

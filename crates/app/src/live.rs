@@ -24,16 +24,50 @@ pub enum LiveError {
     Physics(#[from] PhysicsError),
 }
 
-/// The live curve and its fit statistics.
+/// An SIDM isothermal core: the solution of the halo-first solve a drag follows.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SidmCore {
+    pub rho0_msun_kpc3: f64,
+    pub sigma0_kms: f64,
+}
+
+impl SidmCore {
+    /// The core in `values`, if they hold one (ρ0 and σ0).
+    #[must_use]
+    pub fn from_values(values: &ParamValues) -> Option<Self> {
+        Some(Self {
+            rho0_msun_kpc3: values.get(ParamId::Rho0)?,
+            sigma0_kms: values.get(ParamId::Sigma0)?,
+        })
+    }
+
+    fn to_values(self) -> ParamValues {
+        ParamValues::from_pairs([
+            (ParamId::Rho0, self.rho0_msun_kpc3),
+            (ParamId::Sigma0, self.sigma0_kms),
+        ])
+    }
+}
+
+/// The live curve and its fit statistics (the halo's derived quantities, the SIDM core and
+/// ⟨v_rel⟩ among them, are in `components.halo`).
 #[derive(Debug, Clone, PartialEq)]
 pub struct LiveCurve {
     pub components: Components,
     pub chi2: f64,
     pub chi2_nu: f64,
-    /// For SIDM: ⟨v_rel⟩ (km/s), ρ0 (Msun/kpc³), σ0 (km/s).
-    pub v_rel_kms: Option<f64>,
-    pub rho0_msun_kpc3: Option<f64>,
-    pub sigma0_kms: Option<f64>,
+}
+
+impl LiveCurve {
+    /// The SIDM core of this curve (None for other halo families).
+    #[must_use]
+    pub fn sidm_core(&self) -> Option<SidmCore> {
+        let halo = &self.components.halo;
+        Some(SidmCore {
+            rho0_msun_kpc3: halo.rho0_msun_kpc3?,
+            sigma0_kms: halo.sigma0_kms?,
+        })
+    }
 }
 
 /// Wide bounds: the live view must draw whatever the controls allow.
@@ -57,8 +91,8 @@ fn live_priors() -> Priors {
 }
 
 /// Builds the curve for `settings` on `table`. The error names why no curve exists (for
-/// example, no isothermal core matches the halo). `previous`, the SIDM core (ρ0, σ0) of the curve
-/// drawn a moment ago, lets a drag follow the solution by Newton's method instead of searching
+/// example, no isothermal core matches the halo). `previous`, the SIDM core of the curve drawn a
+/// moment ago, lets a drag follow the solution by Newton's method instead of searching
 /// afresh (a full search runs when that fails or when there is no previous solution).
 ///
 /// The halo family says which settings it reads ([`caldera_physics::HaloFamily::controls`]) and
@@ -68,7 +102,7 @@ pub fn live_curve(
     table: &GalaxyTable,
     settings: &GalaxySettings,
     cosmology: &Cosmology,
-    previous: Option<(f64, f64)>,
+    previous: Option<SidmCore>,
 ) -> Result<LiveCurve, LiveError> {
     let model = GalaxyModel::new(
         table,
@@ -91,11 +125,8 @@ pub fn live_curve(
             .chain(&nuisances)
             .filter_map(|&id| settings.value(id).map(|v| (id, v))),
     );
-    let near = previous.map(|(rho0, sigma0)| {
-        ParamValues::from_pairs([(ParamId::Rho0, rho0), (ParamId::Sigma0, sigma0)])
-    });
-    let at_controls = model.theta_from_values(&controls);
-    let baryons = model.baryons_at(&at_controls)?;
+    let near = previous.map(SidmCore::to_values);
+    let baryons = model.baryons_at_values(&controls)?;
     let parameters =
         family.parameters_from_controls(&controls, &model.halo_context(&baryons), near.as_ref())?;
     let theta = model.theta_from_values(&parameters);
@@ -105,19 +136,15 @@ pub fn live_curve(
         .n_points()
         .saturating_sub(model.parameters().len())
         .max(1);
-    let halo = components.halo;
     Ok(LiveCurve {
         chi2,
         chi2_nu: chi2 / dof as f64,
-        v_rel_kms: halo.v_rel_kms,
-        rho0_msun_kpc3: halo.rho0_msun_kpc3,
-        sigma0_kms: halo.sigma0_kms,
         components,
     })
 }
 
-/// The settings that reproduce a fit's best sample on the controls, and for SIDM the core
-/// (ρ0, σ0) of that sample, so the live curve follows the fitted branch of the halo-first solve
+/// The settings that reproduce a fit's best sample on the controls, and for SIDM the core of
+/// that sample, so the live curve follows the fitted branch of the halo-first solve
 /// rather than the lowest-density one.
 ///
 /// The family turns its fitted parameters into its controls (SIDM: the best core's matched NFW
@@ -128,7 +155,7 @@ pub fn settings_from_fit(
     settings: &GalaxySettings,
     summary: &FitSummary,
     cosmology: &Cosmology,
-) -> Result<(GalaxySettings, Option<(f64, f64)>), LiveError> {
+) -> Result<(GalaxySettings, Option<SidmCore>), LiveError> {
     let model = GalaxyModel::new(
         table,
         summary.model,
@@ -138,7 +165,7 @@ pub fn settings_from_fit(
     )?;
     let family = summary.model.family();
     let best = summary.best_values();
-    let baryons = model.baryons_at(&model.theta_from_values(&best))?;
+    let baryons = model.baryons_at_values(&best)?;
     let controls = family.controls_from_parameters(&best, &model.halo_context(&baryons))?;
     let mut out = settings.clone();
     out.model = summary.model;
@@ -157,11 +184,5 @@ pub fn settings_from_fit(
     out.inclination_deg = best
         .get(ParamId::Inclination)
         .or(table.meta.inclination_deg);
-    let core = best.get(ParamId::Rho0).zip(best.get(ParamId::Sigma0));
-    let core = family
-        .parameters()
-        .contains(&ParamId::Sigma0)
-        .then_some(core)
-        .flatten();
-    Ok((out, core))
+    Ok((out, SidmCore::from_values(&best)))
 }

@@ -13,14 +13,14 @@ use egui_plot::{
 
 use crate::app::CalderaApp;
 use crate::commands::Command;
-use crate::format::{interval, sig};
+use crate::format::{interval, significant};
 use crate::population::log_curves;
 use crate::state::{SortKey, View};
 use crate::theme;
 
 /// Tick labels for axes that plot log10 values: the value itself.
 fn power_of_ten(mark: egui_plot::GridMark, _range: &std::ops::RangeInclusive<f64>) -> String {
-    sig(10f64.powf(mark.value), 2)
+    significant(10f64.powf(mark.value), 2)
 }
 
 /// The plot corner with the fewest data points near it (within 40% of each axis), for the
@@ -245,8 +245,8 @@ impl CalderaApp {
                     match sidm.and_then(|r| r.sigma_m_cm2_g) {
                         Some(s) => {
                             let text = match s.upper95 {
-                                Some(limit) => format!("< {} (95%)", sig(limit, 2)),
-                                None => format!("{} (median)", sig(s.median, 2)),
+                                Some(limit) => format!("< {} (95%)", significant(limit, 2)),
+                                None => format!("{} (median)", significant(s.median, 2)),
                             };
                             if sidm.is_some_and(|r| !r.converged) {
                                 ui.label(
@@ -290,10 +290,10 @@ impl CalderaApp {
         };
         let mut s = before.clone();
         egui::ComboBox::from_label("Model")
-            .selected_text(model_label(s.model))
+            .selected_text(s.model.label())
             .show_ui(ui, |ui| {
                 for m in HaloModel::ALL {
-                    ui.selectable_value(&mut s.model, m, model_label(m));
+                    ui.selectable_value(&mut s.model, m, m.label());
                 }
             });
         for &id in s.model.family().controls() {
@@ -329,18 +329,17 @@ impl CalderaApp {
                     "χ²/ν = {:.2} (χ² = {:.1})",
                     curve.chi2_nu, curve.chi2
                 ));
-                if let (Some(v), Some(rho0), Some(sigma0)) =
-                    (curve.v_rel_kms, curve.rho0_msun_kpc3, curve.sigma0_kms)
+                if let (Some(core), Some(v)) = (curve.sidm_core(), curve.components.halo.v_rel_kms)
                 {
                     ui.label(format!(
                         "core: ρ0 = {} Msun/kpc³, σ0 = {} km/s",
-                        sig(rho0, 3),
-                        sig(sigma0, 3)
+                        significant(core.rho0_msun_kpc3, 3),
+                        significant(core.sigma0_kms, 3)
                     ));
-                    ui.label(format!("<v_rel> = {} km/s", sig(v, 3)));
+                    ui.label(format!("<v_rel> = {} km/s", significant(v, 3)));
                 }
                 if let Some(r1) = curve.components.r1_kpc {
-                    ui.label(format!("r1 = {} kpc", sig(r1, 3)));
+                    ui.label(format!("r1 = {} kpc", significant(r1, 3)));
                 }
             }
             (None, Some(error)) => {
@@ -410,9 +409,7 @@ impl CalderaApp {
         }
         if let Some(result) = self.session.result(&name, settings.model) {
             ui.separator();
-            ui.label(
-                RichText::new(format!("{} fit of {name}", model_label(settings.model))).strong(),
-            );
+            ui.label(RichText::new(format!("{} fit of {name}", settings.model.label())).strong());
             if let Some(s) = &result.sigma_m_cm2_g {
                 let shown = interval(s, "cm²/g");
                 if s.upper95.is_some() {
@@ -456,17 +453,16 @@ impl CalderaApp {
                 }
                 ui.end_row();
                 for r in &rows {
-                    let name = if Some(r.model) == preferred {
-                        RichText::new(format!("{} (preferred)", r.model.name())).strong()
-                    } else {
-                        RichText::new(r.model.name())
-                    };
-                    ui.label(name);
-                    ui.label(format!("{:.2}", r.chi2_nu));
-                    ui.label(format!("{:.1}", r.aic - best_aic));
-                    ui.label(format!("{:.1}", r.bic - best_bic));
-                    ui.label(evidence_words(r.bic - best_bic));
-                    ui.end_row();
+                    comparison_row_ui(
+                        ui,
+                        r.model.name(),
+                        Some(r.model) == preferred,
+                        &[
+                            format!("{:.2}", r.chi2_nu),
+                            format!("{:.1}", r.aic - best_aic),
+                        ],
+                        r.bic - best_bic,
+                    );
                 }
             });
         }
@@ -616,7 +612,7 @@ impl CalderaApp {
                             egui_plot::Text::new(
                                 name,
                                 [x_max * 0.99, y].into(),
-                                format!("{short} = {} kpc →", crate::format::sig(r, 3)),
+                                format!("{short} = {} kpc →", crate::format::significant(r, 3)),
                             )
                             .anchor(egui::Align2::RIGHT_CENTER)
                             .color(shade(theme::MARKER))
@@ -862,8 +858,26 @@ impl CalderaApp {
     }
 }
 
-fn model_label(model: HaloModel) -> &'static str {
-    model.label()
+/// One row of a model-comparison grid: the model's name (marked when clearly preferred), its
+/// `cells`, then ΔBIC and its words on the Kass–Raftery scale.
+pub(crate) fn comparison_row_ui(
+    ui: &mut egui::Ui,
+    name: &str,
+    preferred: bool,
+    cells: &[String],
+    delta_bic: f64,
+) {
+    if preferred {
+        ui.label(RichText::new(format!("{name} (preferred)")).strong());
+    } else {
+        ui.label(name);
+    }
+    for cell in cells {
+        ui.label(cell);
+    }
+    ui.label(format!("{delta_bic:.2}"));
+    ui.label(evidence_words(delta_bic));
+    ui.end_row();
 }
 
 /// A logarithmic or linear slider over the parameter's hand-exploration range, labelled with its

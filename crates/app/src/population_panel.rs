@@ -2,14 +2,15 @@
 //! emits commands only.
 
 use caldera_infer::population::VelocityModel;
-use caldera_infer::summary::{clearly_preferred, evidence_words};
+use caldera_infer::summary::clearly_preferred;
 use caldera_physics::cross_section::dispersion_from_mean_relative_speed_kms;
 use caldera_physics::units::BARN_PER_GEV_PER_CM2_PER_G;
 use egui::RichText;
 
 use crate::app::CalderaApp;
 use crate::commands::Command;
-use crate::format::{interval, sig};
+use crate::format::{interval, significant};
+use crate::panels::comparison_row_ui;
 use crate::population::ParticleModel;
 use crate::theme;
 
@@ -55,7 +56,7 @@ impl CalderaApp {
                         theme::WARNING,
                         format!(
                             "Born approximation not valid here: α m_χ / m_φ = {} (needs ≪ 1); these σ/m values are not physical.",
-                            sig(born, 2)
+                            significant(born, 2)
                         ),
                     );
                 }
@@ -63,13 +64,13 @@ impl CalderaApp {
                 let s = cross_section.sigma_m_cm2_g(at);
                 ui.label(format!(
                     "σ/m at v = {at:.0} km/s: {} cm²/g = {} barn/GeV",
-                    sig(s, 3),
-                    sig(s * BARN_PER_GEV_PER_CM2_PER_G, 3)
+                    significant(s, 3),
+                    significant(s * BARN_PER_GEV_PER_CM2_PER_G, 3)
                 ));
                 let sigma0 = dispersion_from_mean_relative_speed_kms(at);
                 ui.label(format!(
                     "<σv>/m at <v_rel> = {at:.0} km/s: {} cm²/g·km/s",
-                    sig(cross_section.sigma_v_over_m_cm2_g_kms(sigma0), 3)
+                    significant(cross_section.sigma_v_over_m_cm2_g_kms(sigma0), 3)
                 ));
                 ui.label(
                     RichText::new(format!(
@@ -159,23 +160,22 @@ impl CalderaApp {
                 .show(ui, |ui| {
                     ui.strong("model");
                     ui.strong("ln L_max");
-                    ui.strong("ΔBIC");
                     ui.strong("ΔAIC");
+                    ui.strong("ΔBIC");
                     ui.strong("by ΔBIC");
                     ui.end_row();
                     let best_aic = fits.iter().map(|f| f.aic).fold(f64::INFINITY, f64::min);
                     for fit in fits {
-                        let name = if Some(fit.model) == preferred {
-                            format!("{} (preferred)", fit.model.name())
-                        } else {
-                            fit.model.name().to_string()
-                        };
-                        ui.label(name);
-                        ui.label(format!("{:.2}", fit.log_likelihood_max));
-                        ui.label(format!("{:.2}", fit.bic - best_bic));
-                        ui.label(format!("{:.2}", fit.aic - best_aic));
-                        ui.label(evidence_words(fit.bic - best_bic));
-                        ui.end_row();
+                        comparison_row_ui(
+                            ui,
+                            fit.model.name(),
+                            Some(fit.model) == preferred,
+                            &[
+                                format!("{:.2}", fit.log_likelihood_max),
+                                format!("{:.2}", fit.aic - best_aic),
+                            ],
+                            fit.bic - best_bic,
+                        );
                     }
                 });
             if preferred.is_none() {

@@ -6,16 +6,17 @@ use std::collections::BTreeMap;
 use std::path::PathBuf;
 
 use caldera_data::session::{GalaxySettings, HaloModel};
-use caldera_data::{Catalogue, ColumnRole, DataError, GalaxyTable, ReadOptions};
+use caldera_data::{ColumnRole, DataError, GalaxyTable};
 use caldera_infer::population::{FolderPosteriors, PopulationFit};
 use caldera_infer::sampler::RunConfig;
-use caldera_infer::session::Session;
 use caldera_infer::{FitResult, InferError};
 
 use crate::jobs::Job;
-use crate::live::{LiveCurve, LiveError};
+use crate::live::{LiveCurve, LiveError, SidmCore};
 use crate::population::{ParticleModel, PopulationInputs};
-use crate::worker::{FitOutput, FitProgress, PopulationProgress};
+use crate::worker::{
+    CatalogueLoad, FitOutput, FitProgress, FolderLoad, PopulationProgress, SessionLoad, TableLoad,
+};
 
 /// How serious a message is (the theme gives each its colour).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -32,18 +33,6 @@ pub struct Message {
     pub kind: MessageKind,
     pub text: String,
 }
-
-/// A catalogue being read off the UI thread.
-pub(crate) type CatalogueLoad = Job<(), (PathBuf, ReadOptions, Result<Catalogue, DataError>)>;
-
-/// A session file being read off the UI thread.
-pub(crate) type SessionLoad = Job<(), (PathBuf, Result<Session, DataError>)>;
-
-/// A table being read off the UI thread with a column mapping.
-pub(crate) type TableLoad = Job<(), (PathBuf, ReadOptions, Result<GalaxyTable, DataError>)>;
-
-/// A run folder's posteriors being read off the UI thread.
-pub(crate) type FolderLoad = Job<(), (PathBuf, Result<FolderPosteriors, InferError>)>;
 
 /// How the app starts.
 #[derive(Debug, Clone, PartialEq)]
@@ -119,8 +108,8 @@ pub(crate) struct Runtime {
     pub(crate) live_error: Option<LiveError>,
     pub(crate) live_key: Option<(usize, GalaxySettings)>,
     pub(crate) last_valid: Option<LiveCurve>,
-    /// The SIDM core (ρ0, σ0) the next live curve should follow (a best fit's branch).
-    pub(crate) core_hint: Option<(f64, f64)>,
+    /// The SIDM core the next live curve should follow (a best fit's branch).
+    pub(crate) core_hint: Option<SidmCore>,
     pub(crate) fit: Option<Job<FitProgress, FitOutput>>,
     pub(crate) fits: BTreeMap<(String, HaloModel), FitResult>,
     pub(crate) messages: Vec<Message>,

@@ -99,33 +99,45 @@ pub fn start_population_fit(
     })
 }
 
-/// Reads a catalogue (a table or a folder of tables) off the UI thread.
-pub fn start_catalogue_load(
-    path: PathBuf,
-    read: ReadOptions,
-) -> Job<(), (PathBuf, ReadOptions, Result<Catalogue, DataError>)> {
-    Job::spawn(format!("reading {}", path.display()), move |ctx| {
-        let loaded = load_catalogue(&path, &read);
-        ctx.output((path, read, loaded));
-    })
-}
+/// A catalogue being read off the UI thread.
+pub type CatalogueLoad = Job<(), (PathBuf, (ReadOptions, Result<Catalogue, DataError>))>;
+/// A session file being read off the UI thread.
+pub type SessionLoad = Job<(), (PathBuf, Result<Session, DataError>)>;
+/// A table being read off the UI thread with a column mapping.
+pub type TableLoad = Job<(), (PathBuf, (ReadOptions, Result<GalaxyTable, DataError>))>;
+/// A run folder's posteriors being read off the UI thread.
+pub type FolderLoad = Job<(), (PathBuf, Result<FolderPosteriors, InferError>)>;
 
-/// Reads a session file off the UI thread.
-pub fn start_session_load(path: PathBuf) -> Job<(), (PathBuf, Result<Session, DataError>)> {
+/// A job that reads `path` with `read` off the UI thread and hands back the path with the
+/// result.
+fn read_job<T: Send + 'static>(
+    path: PathBuf,
+    read: impl FnOnce(&PathBuf) -> T + Send + 'static,
+) -> Job<(), (PathBuf, T)> {
     Job::spawn(format!("reading {}", path.display()), move |ctx| {
-        let loaded = load_session::<Session>(&path);
+        let loaded = read(&path);
         ctx.output((path, loaded));
     })
 }
 
+/// Reads a catalogue (a table or a folder of tables) off the UI thread.
+pub fn start_catalogue_load(path: PathBuf, options: ReadOptions) -> CatalogueLoad {
+    read_job(path, move |p| {
+        let loaded = load_catalogue(p, &options);
+        (options, loaded)
+    })
+}
+
+/// Reads a session file off the UI thread.
+pub fn start_session_load(path: PathBuf) -> SessionLoad {
+    read_job(path, |p| load_session::<Session>(p))
+}
+
 /// Reads one table with explicit read options (a column mapping) off the UI thread.
-pub fn start_table_load(
-    path: PathBuf,
-    read: ReadOptions,
-) -> Job<(), (PathBuf, ReadOptions, Result<GalaxyTable, DataError>)> {
-    Job::spawn(format!("reading {}", path.display()), move |ctx| {
-        let loaded = read_table(&path, &read);
-        ctx.output((path, read, loaded));
+pub fn start_table_load(path: PathBuf, options: ReadOptions) -> TableLoad {
+    read_job(path, move |p| {
+        let loaded = read_table(p, &options);
+        (options, loaded)
     })
 }
 
@@ -134,9 +146,8 @@ pub fn start_folder_posteriors_load(
     folder: PathBuf,
     prior: CrossSectionPrior,
     max_samples: usize,
-) -> Job<(), (PathBuf, Result<FolderPosteriors, InferError>)> {
-    Job::spawn(format!("reading {}", folder.display()), move |ctx| {
-        let loaded = load_folder_posteriors(&folder, &prior, max_samples);
-        ctx.output((folder, loaded));
+) -> FolderLoad {
+    read_job(folder, move |f| {
+        load_folder_posteriors(f, &prior, max_samples)
     })
 }
