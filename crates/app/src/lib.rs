@@ -19,3 +19,13 @@ pub mod worker;
 
 pub use app::CalderaApp;
 pub use state::AppOptions;
+
+/// The egui ids of the rotation-curve plot and the residual plot of galaxy number `galaxy`
+/// (their memory holds the shown bounds; the two share one radius axis).
+#[must_use]
+pub fn curve_plot_ids(galaxy: usize) -> (egui::Id, egui::Id) {
+    (
+        egui::Id::unique(("caldera rotation curve", galaxy)),
+        egui::Id::unique(("caldera residuals", galaxy)),
+    )
+}

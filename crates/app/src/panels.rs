@@ -509,7 +509,9 @@ impl CalderaApp {
             .map(|(v, e)| v + e)
             .fold(0.0, f64::max);
         let legend_corner = emptiest_corner(&c.radius_kpc, &c.v_obs_kms, x_max, y_top);
+        let (curve_id, residual_id) = crate::curve_plot_ids(galaxy);
         Plot::new(("rotation curve", galaxy))
+            .id(curve_id)
             .height(height * 0.68)
             .legend(Legend::default().position(legend_corner))
             .x_axis_label("Radius [kpc]")
@@ -628,6 +630,7 @@ impl CalderaApp {
             .map(|(&r, ((&o, &m), &e))| [r, (o - m) / e])
             .collect();
         Plot::new(("residuals", galaxy))
+            .id(residual_id)
             .height(ui.available_height())
             .x_axis_label("Radius [kpc]")
             .y_axis_label("(V_obs − V_model)/σ")

@@ -263,3 +263,165 @@ fn a_typed_path_opens_where_no_file_dialog_exists() {
     assert_eq!(harness.state().galaxy_names(), vec!["Kiln D05".to_string()]);
     std::fs::remove_dir_all(&export).ok();
 }
+
+/// The shown radius range (kpc) of the rotation curve and of the residuals of galaxy `galaxy`.
+fn radius_axes(
+    harness: &Harness<'static, CalderaApp>,
+    galaxy: usize,
+) -> ([f64; 2], [f64; 2], egui::Rect) {
+    let (curve, residuals) = caldera_app::curve_plot_ids(galaxy);
+    let curve = egui_plot::PlotMemory::load(&harness.ctx, curve).expect("the curve was drawn");
+    let residuals =
+        egui_plot::PlotMemory::load(&harness.ctx, residuals).expect("the residuals were drawn");
+    let x = |m: &egui_plot::PlotMemory| [m.bounds().min()[0], m.bounds().max()[0]];
+    (x(&curve), x(&residuals), *curve.transform().frame())
+}
+
+/// Asserts two shown ranges agree (to rounding).
+fn assert_same_range(a: [f64; 2], b: [f64; 2], what: &str) {
+    let close = a
+        .iter()
+        .zip(&b)
+        .all(|(x, y)| (x - y).abs() <= 1e-9 * (1.0 + x.abs()));
+    assert!(close, "{what}: {a:?} vs {b:?}");
+}
+
+#[test]
+fn the_curve_and_the_residuals_share_one_radius_axis() {
+    // One radius axis: set by the data (0 to 8% past the last point), the same in both panels,
+    // not stretched when r1 moves far beyond the data, and a pan of the curve moves the
+    // residuals with it.
+    let (options, export) = options("axis");
+    let mut harness = harness(options);
+    let galaxy = harness
+        .state()
+        .galaxy_names()
+        .iter()
+        .position(|n| n == "Kiln D03")
+        .expect("Kiln D03 in the demo catalogue");
+    harness.get_by_label("Kiln D03").click();
+    harness.run();
+    let last_radius = harness
+        .state()
+        .live_curve()
+        .expect("a curve")
+        .components
+        .radius_kpc
+        .iter()
+        .copied()
+        .fold(0.0, f64::max);
+    let (curve, residuals, _) = radius_axes(&harness, galaxy);
+    assert_same_range(curve, residuals, "the two panels show different radii");
+    assert!(curve[0].abs() < 1e-9, "{curve:?}");
+    assert!(
+        (curve[1] - 1.08 * last_radius).abs() < 1e-6 * last_radius,
+        "{curve:?} for a last point at {last_radius} kpc"
+    );
+
+    // A massive halo puts r1 far beyond the data: the axis does not stretch to reach it.
+    harness
+        .get_by_role_and_label(Role::Slider, "V200 [km/s]")
+        .set_value_accesskit(400.0);
+    harness.run();
+    let r1 = harness
+        .state()
+        .live_curve()
+        .expect("a curve at V200 = 400 km/s")
+        .components
+        .r1_kpc;
+    assert!(
+        r1.is_some_and(|r| r > 1.5 * last_radius),
+        "r1 = {r1:?} kpc should lie beyond the data ({last_radius} kpc)"
+    );
+    let (after, residuals_after, frame) = radius_axes(&harness, galaxy);
+    assert_same_range(after, curve, "the radius axis moved while dragging V200");
+    assert_same_range(
+        after,
+        residuals_after,
+        "the panels parted at V200 = 400 km/s",
+    );
+
+    // Pan the curve with the mouse: the residuals follow.
+    let start = frame.center();
+    let end = start + egui::vec2(-frame.width() * 0.25, 0.0);
+    harness.hover_at(start);
+    harness.run();
+    harness.drag_at(start);
+    harness.run();
+    for k in 1..=10 {
+        harness.hover_at(start + (end - start) * (k as f32 / 10.0));
+        harness.run();
+    }
+    harness.drop_at(end);
+    harness.run();
+    let (panned, residuals_panned, _) = radius_axes(&harness, galaxy);
+    assert!(
+        panned[0] > curve[0] + 0.1 * (curve[1] - curve[0]),
+        "the drag did not pan the curve: {curve:?} → {panned:?}"
+    );
+    for (a, b) in panned.iter().zip(&residuals_panned) {
+        assert!(
+            (a - b).abs() < 1e-9 * (1.0 + a.abs()),
+            "{panned:?} vs {residuals_panned:?}"
+        );
+    }
+    std::fs::remove_dir_all(&export).ok();
+}
+
+/// Whether `text` holds a number written with more than `digits` significant digits (a run of
+/// digits, a decimal point allowed, leading zeros not counted).
+fn has_long_number(text: &str, digits: usize) -> bool {
+    text.split(|c: char| !(c.is_ascii_digit() || c == '.'))
+        .map(|token| {
+            token
+                .chars()
+                .filter(char::is_ascii_digit)
+                .skip_while(|c| *c == '0')
+                .count()
+        })
+        .any(|n| n > digits)
+}
+
+#[test]
+fn numbers_read_with_sensible_figures_and_the_born_limit_is_flagged() {
+    // Item 8 and 9 of the app's review: the particle panel at α = 0.1, m_φ = 0.01 MeV,
+    // m_χ = 10 GeV once printed σ/m ≈ 47091051.078 with no warning. Now: three significant
+    // figures in scientific notation with superscripts, and the Born approximation flagged.
+    let (options, export) = options("numbers");
+    let mut harness = harness(options);
+    harness.get_by_label("Population").click();
+    harness.run();
+    harness.get_by_role(Role::ComboBox).click();
+    harness.run();
+    harness.get_by_label("yukawa").click();
+    harness.run();
+    for (label, value) in [("α", 0.1), ("m_φ [MeV]", 0.01), ("m_χ [GeV]", 10.0)] {
+        harness
+            .get_by_role_and_label(Role::Slider, label)
+            .set_value_accesskit(value);
+        harness.run();
+    }
+    let _ = harness.get_by_label_contains("Born approximation not valid here");
+    let sigma = harness.get_by_label_contains("σ/m at v = 100 km/s").value();
+    let sigma = sigma.unwrap_or_default();
+    // A label keeps its text in the accesskit value.
+    assert!(sigma.contains("×10"), "{sigma}");
+    assert!(!has_long_number(&sigma, 4), "{sigma}");
+    let rate = harness.get_by_label_contains("<σv>/m at").value();
+    let rate = rate.unwrap_or_default();
+    assert!(rate.contains("×10"), "{rate}");
+    assert!(!has_long_number(&rate, 4), "{rate}");
+    // Inside the Born regime (α m_χ / m_φ = 1e-5 · 10 GeV / 10 MeV = 0.01) the warning goes.
+    for (label, value) in [("α", 1e-5), ("m_φ [MeV]", 10.0)] {
+        harness
+            .get_by_role_and_label(Role::Slider, label)
+            .set_value_accesskit(value);
+        harness.run();
+    }
+    assert!(
+        harness
+            .query_by_label_contains("Born approximation not valid here")
+            .is_none()
+    );
+    std::fs::remove_dir_all(&export).ok();
+}

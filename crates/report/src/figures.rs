@@ -19,25 +19,91 @@ pub trait Figure {
     fn size(&self) -> (u32, u32) {
         theme::SIZE
     }
-    /// Draws on `root` (already sized to [`Figure::size`]).
-    fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> Result<(), ReportError>;
+    /// Draws on `root`, sized to [`Figure::size`] times `scale`; every length in pixels (margins,
+    /// fonts, strokes, markers) is multiplied by `scale`.
+    fn draw<DB: DrawingBackend>(
+        &self,
+        root: &DrawingArea<DB, Shift>,
+        scale: Scale,
+    ) -> Result<(), ReportError>;
+}
+
+/// How many drawing units make one pixel. Plotters' backends take whole-number coordinates, so
+/// a curve drawn at one unit per pixel is rounded to whole pixels and looks stair-stepped in a
+/// vector file; SVG figures are therefore drawn [`SVG_SUBPIXELS`] times finer and shown at their
+/// nominal size through the `viewBox`. Bitmaps use [`Scale::ONE`].
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Scale(u32);
+
+/// Drawing units per pixel in SVG figures (1/8 px resolution; common practice).
+pub const SVG_SUBPIXELS: u32 = 8;
+
+impl Scale {
+    /// One drawing unit per pixel.
+    pub const ONE: Self = Self(1);
+
+    /// `factor` drawing units per pixel (at least 1).
+    #[must_use]
+    pub fn new(factor: u32) -> Self {
+        Self(factor.max(1))
+    }
+
+    /// `n` pixels in drawing units.
+    #[must_use]
+    pub const fn px(self, n: u32) -> u32 {
+        n * self.0
+    }
+
+    /// `n` pixels (signed: an offset) in drawing units.
+    #[must_use]
+    pub const fn offset(self, n: i32) -> i32 {
+        n * self.0 as i32
+    }
+
+    /// The bundled font at `size` pixels.
+    fn font(self, size: u32) -> TextStyle<'static> {
+        (theme::FONT, self.px(size)).into_font().into()
+    }
 }
 
 fn draw_error<E: std::error::Error + Send + Sync>(e: DrawingAreaErrorKind<E>) -> ReportError {
     ReportError::Draw(e.to_string())
 }
 
-/// Draws the legend of the labelled series in one style for every figure.
+/// Draws the legend of the labelled series (`labels`, in order) in one style for every figure, in
+/// the plotting area's lower left or lower right corner.
 fn draw_legend<'a, DB: DrawingBackend + 'a, CT: CoordTranslate>(
     chart: &mut ChartContext<'a, DB, CT>,
-    position: SeriesLabelPosition,
+    lower_left: bool,
+    labels: &[&str],
+    scale: Scale,
 ) -> Result<(), ReportError> {
+    // Placed here rather than by plotters' named corners, whose 5-unit gap from the axes would
+    // shrink to a fraction of a pixel in a finely drawn SVG.
+    let font = scale.font(theme::TICK_SIZE);
+    let (margin, swatch, gap) = (scale.offset(10), scale.offset(30), scale.offset(5));
+    let mut text = MultiLineText::<_, &str>::new((0, 0), &font);
+    for label in labels {
+        text.push_line(*label);
+    }
+    let (text_w, text_h) = text
+        .estimate_dimension()
+        .map_err(|e| ReportError::Draw(e.to_string()))?;
+    let (area_w, area_h) = chart.plotting_area().dim_in_pixel();
+    let x = if lower_left {
+        gap
+    } else {
+        area_w as i32 - (text_w + swatch + 2 * margin) - gap
+    };
+    let y = area_h as i32 - (text_h + 2 * margin) - gap;
     chart
         .configure_series_labels()
-        .position(position)
-        .label_font(font(theme::TICK_SIZE))
+        .position(SeriesLabelPosition::Coordinate(x, y))
+        .margin(scale.px(10))
+        .legend_area_size(scale.px(30))
+        .label_font(font.clone())
         .background_style(WHITE.mix(0.85))
-        .border_style(BLACK)
+        .border_style(BLACK.stroke_width(scale.px(1)))
         .draw()
         .map_err(draw_error)
 }
@@ -52,12 +118,7 @@ pub fn save_figure(figure: &impl Figure, path: &Path) -> Result<(), ReportError>
         .unwrap_or_default();
     match extension.as_str() {
         "svg" => {
-            let mut text = String::new();
-            {
-                let root = SVGBackend::with_string(&mut text, figure.size()).into_drawing_area();
-                figure.draw(&root)?;
-                root.present().map_err(draw_error)?;
-            }
+            let text = svg_text(figure)?;
             caldera_data::write_atomic(path, text.as_bytes())?;
         }
         "png" => {
@@ -68,7 +129,7 @@ pub fn save_figure(figure: &impl Figure, path: &Path) -> Result<(), ReportError>
                 path.with_file_name(format!(".{stem}.{}.partial.png", std::process::id()));
             {
                 let root = BitMapBackend::new(&temporary, figure.size()).into_drawing_area();
-                figure.draw(&root)?;
+                figure.draw(&root, Scale::ONE)?;
                 root.present().map_err(draw_error)?;
             }
             std::fs::rename(&temporary, path).map_err(|source| ReportError::Io {
@@ -86,8 +147,34 @@ pub fn save_figure(figure: &impl Figure, path: &Path) -> Result<(), ReportError>
     Ok(())
 }
 
-fn font(size: u32) -> TextStyle<'static> {
-    (theme::FONT, size).into_font().into()
+/// The figure as an SVG document: drawn [`SVG_SUBPIXELS`] times finer than its size and shown at
+/// its size through the `viewBox`.
+pub fn svg_text(figure: &impl Figure) -> Result<String, ReportError> {
+    crate::register_font();
+    let scale = Scale::new(SVG_SUBPIXELS);
+    let (width, height) = figure.size();
+    let fine = (scale.px(width), scale.px(height));
+    let mut text = String::new();
+    {
+        let root = SVGBackend::with_string(&mut text, fine).into_drawing_area();
+        figure.draw(&root, scale)?;
+        root.present().map_err(draw_error)?;
+    }
+    let drawn = format!(r#"width="{}" height="{}""#, fine.0, fine.1);
+    let shown = format!(r#"width="{width}" height="{height}""#);
+    // Plotters writes outlined rectangles (the legend's frame) without a stroke width, which
+    // would leave them one drawing unit (1/8 px) wide.
+    let frame = format!(r#"fill="none" stroke-width="{}" stroke="#, scale.px(1));
+    let mut out = String::with_capacity(text.len() + 64);
+    for line in text.replacen(&drawn, &shown, 1).lines() {
+        if line.starts_with("<rect") && !line.contains("stroke-width") {
+            out.push_str(&line.replace(r#"fill="none" stroke="#, &frame));
+        } else {
+            out.push_str(line);
+        }
+        out.push('\n');
+    }
+    Ok(out)
 }
 
 /// A named line: label, colour, points, stroke width.
@@ -102,10 +189,15 @@ pub struct RotationCurveFigure {
 }
 
 impl Figure for RotationCurveFigure {
-    fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> Result<(), ReportError> {
+    fn draw<DB: DrawingBackend>(
+        &self,
+        root: &DrawingArea<DB, Shift>,
+        scale: Scale,
+    ) -> Result<(), ReportError> {
         let c = &self.components;
         root.fill(&WHITE).map_err(draw_error)?;
-        let (upper, lower) = root.split_vertically((f64::from(theme::SIZE.1) * 0.70) as u32);
+        let (upper, lower) =
+            root.split_vertically((f64::from(root.dim_in_pixel().1) * 0.70) as u32);
         let r_max = c.fine_radius_kpc.last().copied().unwrap_or(1.0);
         let v_top = c
             .v_obs_kms
@@ -123,20 +215,22 @@ impl Figure for RotationCurveFigure {
             .min(0.0)
             * 1.1;
         let mut chart = ChartBuilder::on(&upper)
-            .caption(&self.title, font(theme::TITLE_SIZE))
-            .margin(14)
-            .x_label_area_size(24)
-            .y_label_area_size(80)
+            .caption(&self.title, scale.font(theme::TITLE_SIZE))
+            .margin(scale.px(14))
+            .x_label_area_size(scale.px(24))
+            .y_label_area_size(scale.px(80))
             .build_cartesian_2d(0.0..r_max, v_bottom..v_top)
             .map_err(draw_error)?;
         chart
             .configure_mesh()
             .disable_x_mesh()
             .disable_y_mesh()
+            .axis_style(BLACK.stroke_width(scale.px(1)))
+            .set_all_tick_mark_size(scale.px(5))
             .y_desc("Circular velocity [km/s]")
             .x_label_formatter(&|_| String::new())
-            .label_style(font(theme::TICK_SIZE))
-            .axis_desc_style(font(theme::LABEL_SIZE))
+            .label_style(scale.font(theme::TICK_SIZE))
+            .axis_desc_style(scale.font(theme::LABEL_SIZE))
             .draw()
             .map_err(draw_error)?;
         let line = |values: &[f64], radii: &[f64]| -> Vec<(f64, f64)> {
@@ -166,19 +260,33 @@ impl Figure for RotationCurveFigure {
             line(&c.v_total_fine_kms, &c.fine_radius_kpc),
             4,
         ));
+        let series_names: Vec<&str> = series.iter().map(|s| s.0).collect();
         for (name, colour, points, width) in series {
             chart
-                .draw_series(LineSeries::new(points, colour.stroke_width(width)))
+                .draw_series(LineSeries::new(
+                    points,
+                    colour.stroke_width(scale.px(width)),
+                ))
                 .map_err(draw_error)?
                 .label(name)
                 .legend(move |(x, y)| {
-                    PathElement::new(vec![(x, y), (x + 24, y)], colour.stroke_width(width))
+                    PathElement::new(
+                        vec![(x, y), (x + scale.offset(24), y)],
+                        colour.stroke_width(scale.px(width)),
+                    )
                 });
         }
         chart
             .draw_series(c.radius_kpc.iter().zip(&c.v_obs_kms).zip(&c.v_err_kms).map(
                 |((&r, &v), &e)| {
-                    ErrorBar::new_vertical(r, v - e, v, v + e, theme::DATA.stroke_width(2), 8)
+                    ErrorBar::new_vertical(
+                        r,
+                        v - e,
+                        v,
+                        v + e,
+                        theme::DATA.stroke_width(scale.px(2)),
+                        scale.px(8),
+                    )
                 },
             ))
             .map_err(draw_error)?;
@@ -187,11 +295,13 @@ impl Figure for RotationCurveFigure {
                 c.radius_kpc
                     .iter()
                     .zip(&c.v_obs_kms)
-                    .map(|(&r, &v)| Circle::new((r, v), 5, theme::DATA.filled())),
+                    .map(|(&r, &v)| Circle::new((r, v), scale.px(5), theme::DATA.filled())),
             )
             .map_err(draw_error)?
             .label("observed")
-            .legend(|(x, y)| Circle::new((x + 12, y), 5, theme::DATA.filled()));
+            .legend(move |(x, y)| {
+                Circle::new((x + scale.offset(12), y), scale.px(5), theme::DATA.filled())
+            });
         for (name, radius) in [("r1", c.r1_kpc), ("r_core", c.core_radius_kpc)] {
             let Some(r) = radius.filter(|r| *r < r_max) else {
                 continue;
@@ -199,18 +309,20 @@ impl Figure for RotationCurveFigure {
             chart
                 .draw_series(std::iter::once(PathElement::new(
                     vec![(r, v_bottom), (r, v_top * 0.93)],
-                    theme::MARKER.stroke_width(2),
+                    theme::MARKER.stroke_width(scale.px(2)),
                 )))
                 .map_err(draw_error)?;
             chart
                 .draw_series(std::iter::once(Text::new(
                     name.to_string(),
                     (r, v_top * 0.97),
-                    font(theme::TICK_SIZE),
+                    scale.font(theme::TICK_SIZE),
                 )))
                 .map_err(draw_error)?;
         }
-        draw_legend(&mut chart, SeriesLabelPosition::LowerRight)?;
+        let mut labels: Vec<&str> = series_names;
+        labels.push("observed");
+        draw_legend(&mut chart, false, &labels, scale)?;
 
         let residuals: Vec<(f64, f64)> = c
             .radius_kpc
@@ -220,33 +332,35 @@ impl Figure for RotationCurveFigure {
             .collect();
         let span = residuals.iter().map(|p| p.1.abs()).fold(3.0, f64::max) * 1.15;
         let mut lower_chart = ChartBuilder::on(&lower)
-            .margin(14)
-            .x_label_area_size(60)
-            .y_label_area_size(80)
+            .margin(scale.px(14))
+            .x_label_area_size(scale.px(60))
+            .y_label_area_size(scale.px(80))
             .build_cartesian_2d(0.0..r_max, -span..span)
             .map_err(draw_error)?;
         lower_chart
             .configure_mesh()
             .disable_x_mesh()
             .disable_y_mesh()
+            .axis_style(BLACK.stroke_width(scale.px(1)))
+            .set_all_tick_mark_size(scale.px(5))
             .x_desc("Radius [kpc]")
             .y_desc("(V_obs − V_model)/σ")
             .y_labels(5)
-            .label_style(font(theme::TICK_SIZE))
-            .axis_desc_style(font(theme::LABEL_SIZE))
+            .label_style(scale.font(theme::TICK_SIZE))
+            .axis_desc_style(scale.font(theme::LABEL_SIZE))
             .draw()
             .map_err(draw_error)?;
         lower_chart
             .draw_series(LineSeries::new(
                 vec![(0.0, 0.0), (r_max, 0.0)],
-                theme::MARKER.stroke_width(1),
+                theme::MARKER.stroke_width(scale.px(1)),
             ))
             .map_err(draw_error)?;
         lower_chart
             .draw_series(
                 residuals
                     .iter()
-                    .map(|&p| Circle::new(p, 5, theme::DATA.filled())),
+                    .map(|&p| Circle::new(p, scale.px(5), theme::DATA.filled())),
             )
             .map_err(draw_error)?;
         Ok(())
@@ -272,10 +386,14 @@ impl Figure for CornerFigure {
         (side, side)
     }
 
-    fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> Result<(), ReportError> {
+    fn draw<DB: DrawingBackend>(
+        &self,
+        root: &DrawingArea<DB, Shift>,
+        scale: Scale,
+    ) -> Result<(), ReportError> {
         root.fill(&WHITE).map_err(draw_error)?;
         let root = root
-            .titled(&self.title, font(theme::TITLE_SIZE))
+            .titled(&self.title, scale.font(theme::TITLE_SIZE))
             .map_err(draw_error)?;
         let n = self.columns.len();
         if n == 0 {
@@ -300,6 +418,7 @@ impl Figure for CornerFigure {
             .collect();
         let panels = root.split_evenly((n, n));
         let tick = theme::TICK_SIZE * 3 / 4;
+        let axis = BLACK.stroke_width(scale.px(1));
         let stride = (self.columns[0].len() / CORNER_POINTS).max(1);
         for row in 0..n {
             for col in 0..n {
@@ -307,8 +426,8 @@ impl Figure for CornerFigure {
                 if col > row {
                     continue;
                 }
-                let x_area = if row == n - 1 { 56 } else { 4 };
-                let y_area = if col == 0 { 92 } else { 4 };
+                let x_area = scale.px(if row == n - 1 { 56 } else { 4 });
+                let y_area = scale.px(if col == 0 { 92 } else { 4 });
                 let (x0, x1) = ranges[col];
                 if row == col {
                     let bins = 30;
@@ -326,8 +445,10 @@ impl Figure for CornerFigure {
                     let mut mesh = chart.configure_mesh();
                     mesh.disable_mesh()
                         .y_labels(0)
-                        .label_style(font(tick))
-                        .axis_desc_style(font(tick + 2));
+                        .axis_style(axis)
+                        .set_all_tick_mark_size(scale.px(5))
+                        .label_style(scale.font(tick))
+                        .axis_desc_style(scale.font(tick + 2));
                     if row == n - 1 {
                         mesh.x_desc(self.names[col].as_str()).x_labels(3);
                     } else {
@@ -353,8 +474,10 @@ impl Figure for CornerFigure {
                         .map_err(draw_error)?;
                     let mut mesh = chart.configure_mesh();
                     mesh.disable_mesh()
-                        .label_style(font(tick))
-                        .axis_desc_style(font(tick + 2));
+                        .axis_style(axis)
+                        .set_all_tick_mark_size(scale.px(5))
+                        .label_style(scale.font(tick))
+                        .axis_desc_style(scale.font(tick + 2));
                     if row == n - 1 {
                         mesh.x_desc(self.names[col].as_str()).x_labels(3);
                     } else {
@@ -374,7 +497,11 @@ impl Figure for CornerFigure {
                                 .step_by(stride)
                                 .filter(|(x, y)| x.is_finite() && y.is_finite())
                                 .map(|(&x, &y)| {
-                                    Circle::new((x, y), 1, theme::POSTERIOR.mix(0.35).filled())
+                                    Circle::new(
+                                        (x, y),
+                                        scale.px(1),
+                                        theme::POSTERIOR.mix(0.35).filled(),
+                                    )
                                 }),
                         )
                         .map_err(draw_error)?;
@@ -451,7 +578,11 @@ pub struct PopulationCurve {
 }
 
 impl Figure for PopulationFigure {
-    fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> Result<(), ReportError> {
+    fn draw<DB: DrawingBackend>(
+        &self,
+        root: &DrawingArea<DB, Shift>,
+        scale: Scale,
+    ) -> Result<(), ReportError> {
         root.fill(&WHITE).map_err(draw_error)?;
         let xs = self
             .points
@@ -493,28 +624,31 @@ impl Figure for PopulationFigure {
         }
         let (x0, x1, y0, y1) = (x0 / 1.5, x1 * 1.5, y0 / 3.0, y1 * 3.0);
         let mut chart = ChartBuilder::on(root)
-            .caption(&self.title, font(theme::TITLE_SIZE))
-            .margin(16)
-            .x_label_area_size(64)
-            .y_label_area_size(90)
+            .caption(&self.title, scale.font(theme::TITLE_SIZE))
+            .margin(scale.px(16))
+            .x_label_area_size(scale.px(64))
+            .y_label_area_size(scale.px(90))
             .build_cartesian_2d((x0..x1).log_scale(), (y0..y1).log_scale())
             .map_err(draw_error)?;
         chart
             .configure_mesh()
             .disable_mesh()
+            .axis_style(BLACK.stroke_width(scale.px(1)))
+            .set_all_tick_mark_size(scale.px(5))
             .x_desc("Mean relative velocity <v_rel> [km/s]")
             .y_desc(format!(
                 "σ/m [cm²/g]  (1 cm²/g = {BARN_PER_GEV_PER_CM2_PER_G:.2} barn/GeV)"
             ))
             .x_label_formatter(&|v| log_tick(*v))
             .y_label_formatter(&|v| log_tick(*v))
-            .label_style(font(theme::TICK_SIZE))
-            .axis_desc_style(font(theme::LABEL_SIZE))
+            .label_style(scale.font(theme::TICK_SIZE))
+            .axis_desc_style(scale.font(theme::LABEL_SIZE))
             .draw()
             .map_err(draw_error)?;
+        let mut legend_labels: Vec<&str> = Vec::new();
         for curve in &self.curves {
             let colour = theme::CURVES[curve.group % theme::CURVES.len()];
-            let style = colour.stroke_width(3);
+            let style = colour.stroke_width(scale.px(3));
             // Runs of points inside the plotted range; a curve leaving it is cut, not clamped.
             let mut runs: Vec<Vec<(f64, f64)>> = vec![Vec::new()];
             for &(x, y) in &curve.points {
@@ -530,7 +664,7 @@ impl Figure for PopulationFigure {
             for run in runs.into_iter().filter(|r| r.len() > 1) {
                 let drawn = if curve.dashed {
                     chart
-                        .draw_series(DashedLineSeries::new(run, 10, 6, style))
+                        .draw_series(DashedLineSeries::new(run, scale.px(10), scale.px(6), style))
                         .map_err(draw_error)?
                 } else {
                     chart
@@ -539,7 +673,8 @@ impl Figure for PopulationFigure {
                 };
                 if !labelled {
                     labelled = true;
-                    let end = if curve.dashed { 12 } else { 24 };
+                    legend_labels.push(curve.label.as_str());
+                    let end = scale.offset(if curve.dashed { 12 } else { 24 });
                     drawn
                         .label(curve.label.as_str())
                         .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + end, y)], style));
@@ -552,45 +687,132 @@ impl Figure for PopulationFigure {
                 let tip = limit / 2.5;
                 chart
                     .draw_series([
-                        PathElement::new(vec![(v, limit), (v, tip)], theme::LIMIT.stroke_width(2)),
+                        PathElement::new(
+                            vec![(v, limit), (v, tip)],
+                            theme::LIMIT.stroke_width(scale.px(2)),
+                        ),
                         PathElement::new(
                             vec![(v_lo, limit), (v_hi, limit)],
-                            theme::LIMIT.stroke_width(2),
+                            theme::LIMIT.stroke_width(scale.px(2)),
                         ),
                     ])
                     .map_err(draw_error)?;
                 chart
                     .draw_series(std::iter::once(TriangleMarker::new(
                         (v, tip),
-                        7,
+                        scale.px(7),
                         theme::LIMIT.filled(),
                     )))
                     .map_err(draw_error)?;
             } else {
                 let (s, s_lo, s_hi) = p.sigma_m_cm2_g;
-                let style = theme::DATA.stroke_width(2);
+                let style = theme::DATA.stroke_width(scale.px(2));
                 chart
                     .draw_series(std::iter::once(ErrorBar::new_vertical(
-                        v, s_lo, s, s_hi, style, 8,
+                        v,
+                        s_lo,
+                        s,
+                        s_hi,
+                        style,
+                        scale.px(8),
                     )))
                     .map_err(draw_error)?;
                 chart
                     .draw_series(std::iter::once(ErrorBar::new_horizontal(
-                        s, v_lo, v, v_hi, style, 8,
+                        s,
+                        v_lo,
+                        v,
+                        v_hi,
+                        style,
+                        scale.px(8),
                     )))
                     .map_err(draw_error)?;
                 chart
                     .draw_series(std::iter::once(Circle::new(
                         (v, s),
-                        6,
+                        scale.px(6),
                         theme::DATA.filled(),
                     )))
                     .map_err(draw_error)?;
             }
         }
-        if !self.curves.is_empty() {
-            draw_legend(&mut chart, SeriesLabelPosition::LowerLeft)?;
+        if !legend_labels.is_empty() {
+            draw_legend(&mut chart, true, &legend_labels, scale)?;
         }
         Ok(())
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The coordinates of every `<polyline>` in an SVG document.
+    fn polyline_points(svg: &str) -> Vec<(f64, f64)> {
+        svg.split("<polyline")
+            .skip(1)
+            .filter_map(|element| element.split("points=\"").nth(1)?.split('"').next())
+            .flat_map(|points| {
+                points.split_whitespace().filter_map(|pair| {
+                    let (x, y) = pair.split_once(',')?;
+                    Some((x.parse().ok()?, y.parse().ok()?))
+                })
+            })
+            .collect()
+    }
+
+    #[test]
+    fn svg_curves_are_not_rounded_to_whole_pixels() {
+        // A smooth, shallow curve: at one unit per pixel its y would move in whole-pixel stairs.
+        let points: Vec<(f64, f64)> = (0..400)
+            .map(|k| {
+                let v = 10.0 * 1.01f64.powi(k);
+                (v, 1.0 + 0.3 * (v / 50.0).ln().sin())
+            })
+            .collect();
+        let figure = PopulationFigure {
+            title: "smooth".into(),
+            points: vec![],
+            curves: vec![PopulationCurve {
+                label: "curve".into(),
+                points,
+                dashed: false,
+                group: 0,
+            }],
+        };
+        let svg = svg_text(&figure).expect("draws");
+        let (w, h) = theme::SIZE;
+        let k = SVG_SUBPIXELS;
+        assert!(
+            svg.contains(&format!(
+                r#"width="{w}" height="{h}" viewBox="0 0 {} {}""#,
+                w * k,
+                h * k
+            )),
+            "shown at its nominal size over a finer grid: {}",
+            &svg[..200.min(svg.len())]
+        );
+        let drawn = polyline_points(&svg);
+        assert!(drawn.len() > 100, "{} points", drawn.len());
+        // In pixels, the points must take fractional values (1/8 px steps), not whole pixels only.
+        let fractional = drawn
+            .iter()
+            .filter(|(_, y)| (y / f64::from(k)).fract() != 0.0)
+            .count();
+        assert!(
+            fractional > drawn.len() / 2,
+            "{fractional} of {} y coordinates off the whole-pixel grid",
+            drawn.len()
+        );
+        // Outlined rectangles get a one-pixel frame, not a one-unit one.
+        assert!(
+            svg.lines()
+                .filter(|l| l.starts_with("<rect") && l.contains(r#"fill="none""#))
+                .all(|l| l.matches("stroke-width").count() == 1),
+            "a frame without a stroke width, or with two"
+        );
+        // The bitmap path still draws at one unit per pixel.
+        assert_eq!(Scale::ONE.px(5), 5);
+        assert_eq!(Scale::new(SVG_SUBPIXELS).offset(-3), -24);
     }
 }
