@@ -19,14 +19,14 @@ use caldera_report::tables::{latex_table, results_table};
 
 use crate::commands::Command;
 use crate::jobs::Job;
-use crate::live::{LiveCurve, LiveError, live_curve, settings_from_fit};
+use crate::live::{Effort, LiveCurve, LiveError, live_curve_with, settings_from_fit};
 use crate::population::{ParticleModel, PopulationInputs, linear_curves};
 use crate::state::{
     AppOptions, GalaxyEntry, MappingStep, Message, MessageKind, Runtime, SortKey, View,
 };
 use crate::worker::{
-    start_catalogue_load, start_fit, start_folder_posteriors_load, start_population_fit,
-    start_session_load, start_table_load,
+    LiveRequest, start_catalogue_load, start_fit, start_folder_posteriors_load, start_live_search,
+    start_population_fit, start_session_load, start_table_load,
 };
 
 /// The outputs a job in `slot` has produced since the last frame; the slot empties once the job
@@ -81,6 +81,8 @@ impl CalderaApp {
                 live_error: None,
                 live_key: None,
                 last_valid: None,
+                live_search: None,
+                live_pending: None,
                 core_hint: None,
                 fit: None,
                 fits: BTreeMap::new(),
@@ -313,22 +315,13 @@ impl CalderaApp {
         if let Ok(table) = &self.runtime.galaxies[index].table
             && !self.session.galaxies.contains_key(&name)
         {
-            let v_max = table.v_obs_max_kms();
-            let settings = GalaxySettings {
-                v200_kms: (0.8 * v_max).clamp(10.0, 400.0),
-                c200: 10.0,
-                sigma_m_cm2_g: 1.0,
-                distance_mpc: table.meta.distance_mpc,
-                inclination_deg: table.meta.inclination_deg,
-                age_gyr: table
-                    .meta
-                    .age_gyr
-                    .unwrap_or(caldera_physics::units::DEFAULT_HALO_AGE_GYR),
-                ..GalaxySettings::default()
-            };
+            let settings = crate::live::starting_settings(table);
             self.session.galaxies.insert(name, settings);
         }
+        // Another galaxy's curve is not drawn over this one while its core is searched for.
         self.runtime.last_valid = None;
+        self.runtime.live = None;
+        self.runtime.live_error = None;
         self.refresh_live();
     }
 
@@ -348,18 +341,20 @@ impl CalderaApp {
             .cloned()
     }
 
-    /// Recomputes the live curve when the galaxy or its settings changed.
+    /// Recomputes the live curve when the galaxy or its settings changed. What is quick (closed-
+    /// form halos, an SIDM core followed from the one on screen) is done here; a halo-first
+    /// search goes to a background job, the last curve staying drawn until its answer arrives.
     fn refresh_live(&mut self) {
         let (Some(i), Some(settings)) = (self.runtime.selected, self.current_settings()) else {
             return;
         };
-        if self.runtime.live_key.as_ref() == Some(&(i, settings.clone())) {
+        let key = (i, settings);
+        if self.runtime.live_key.as_ref() == Some(&key) {
             return;
         }
         let Ok(table) = &self.runtime.galaxies[i].table else {
             return;
         };
-        // Follow the solution on screen while the same galaxy's controls move.
         // A best fit just loaded names its own core (the fitted branch); otherwise follow the
         // solution on screen while the same galaxy's controls move.
         let previous = match (
@@ -371,7 +366,40 @@ impl CalderaApp {
             (None, Some((k, _)), Some(curve)) if *k == i => curve.sidm_core(),
             _ => None,
         };
-        match live_curve(table, &settings, &self.session.fit.cosmology, previous) {
+        let cosmology = self.session.fit.cosmology;
+        let quick = live_curve_with(table, &key.1, &cosmology, previous, Effort::Quick);
+        let request = match quick {
+            Ok(Some(curve)) => {
+                self.show_live(Ok(curve));
+                None
+            }
+            Err(e) => {
+                self.show_live(Err(e));
+                None
+            }
+            Ok(None) => Some(LiveRequest {
+                key: key.clone(),
+                table: table.clone(),
+                cosmology,
+                previous,
+            }),
+        };
+        self.runtime.live_key = Some(key);
+        // A newer request replaces any waiting one; a search under way finishes (it cannot be
+        // interrupted mid-integration) and its answer is dropped unless it is still wanted.
+        self.runtime.live_pending = None;
+        if let Some(request) = request {
+            if self.runtime.live_search.is_some() {
+                self.runtime.live_pending = Some(request);
+            } else {
+                self.runtime.live_search = Some(start_live_search(request));
+            }
+        }
+    }
+
+    /// Shows a live curve (or why there is none).
+    fn show_live(&mut self, outcome: Result<LiveCurve, LiveError>) {
+        match outcome {
             Ok(curve) => {
                 self.runtime.last_valid = Some(curve.clone());
                 self.runtime.live = Some(curve);
@@ -382,7 +410,28 @@ impl CalderaApp {
                 self.runtime.live_error = Some(e);
             }
         }
-        self.runtime.live_key = Some((i, settings));
+    }
+
+    /// Takes the background search's answer when it is still wanted, then starts the waiting
+    /// search, if any.
+    fn poll_live_search(&mut self) {
+        for (key, outcome) in take_outputs(&mut self.runtime.live_search) {
+            if self.runtime.live_key.as_ref() == Some(&key) {
+                self.show_live(outcome);
+            }
+        }
+        if self.runtime.live_search.is_none()
+            && let Some(request) = self.runtime.live_pending.take()
+            && self.runtime.live_key.as_ref() == Some(&request.key)
+        {
+            self.runtime.live_search = Some(start_live_search(request));
+        }
+    }
+
+    /// Whether the live curve waits for a halo-first search.
+    #[must_use]
+    pub fn solving_live(&self) -> bool {
+        self.runtime.live_search.is_some()
     }
 
     fn fit_config(&self) -> FitConfig {
@@ -486,6 +535,7 @@ impl CalderaApp {
         }
         self.poll_worker();
         self.poll_population();
+        self.poll_live_search();
         if let Some(path) = take_outputs(&mut self.runtime.dialog)
             .into_iter()
             .flatten()
@@ -535,6 +585,7 @@ impl CalderaApp {
             || r.folder_load.is_some()
             || r.table_load.is_some()
             || r.session_load.is_some()
+            || r.live_search.is_some()
     }
 
     fn poll_population(&mut self) {
@@ -983,7 +1034,10 @@ impl eframe::App for CalderaApp {
         for command in commands {
             self.apply(command, &ctx);
         }
-        if self.busy() {
+        if self.solving_live() {
+            // The live curve's answer is shown as soon as it arrives.
+            ctx.request_repaint_after(std::time::Duration::from_millis(4));
+        } else if self.busy() {
             ctx.request_repaint_after(std::time::Duration::from_millis(100));
         }
     }

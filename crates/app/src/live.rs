@@ -70,6 +70,26 @@ impl LiveCurve {
     }
 }
 
+/// The controls a galaxy opens with: V200 at 0.8 of its highest observed velocity, c200 = 10,
+/// σ/m = 1 cm²/g, the table's distance, inclination and halo age (common practice: a halo near
+/// the data's scale to start dragging from).
+#[must_use]
+pub fn starting_settings(table: &GalaxyTable) -> GalaxySettings {
+    let (v200_low, v200_high, _) = ParamId::V200.control_range();
+    GalaxySettings {
+        v200_kms: (0.8 * table.v_obs_max_kms()).clamp(v200_low, v200_high),
+        c200: 10.0,
+        sigma_m_cm2_g: 1.0,
+        distance_mpc: table.meta.distance_mpc,
+        inclination_deg: table.meta.inclination_deg,
+        age_gyr: table
+            .meta
+            .age_gyr
+            .unwrap_or(caldera_physics::units::DEFAULT_HALO_AGE_GYR),
+        ..GalaxySettings::default()
+    }
+}
+
 /// Wide bounds: the live view must draw whatever the controls allow.
 fn live_priors() -> Priors {
     Priors {
@@ -90,6 +110,17 @@ fn live_priors() -> Priors {
     }
 }
 
+/// How much work a live solve may do.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Effort {
+    /// Only what is quick enough for a frame: closed-form halos, and an SIDM core followed from
+    /// the previous one by Newton's method (a few Jeans integrations).
+    Quick,
+    /// Whatever it takes, including the halo-first global search (milliseconds to tens of
+    /// milliseconds with tabulated baryons): run it off the UI thread.
+    Full,
+}
+
 /// Builds the curve for `settings` on `table`. The error names why no curve exists (for
 /// example, no isothermal core matches the halo). `previous`, the SIDM core of the curve drawn a
 /// moment ago, lets a drag follow the solution by Newton's method instead of searching
@@ -104,6 +135,23 @@ pub fn live_curve(
     cosmology: &Cosmology,
     previous: Option<SidmCore>,
 ) -> Result<LiveCurve, LiveError> {
+    live_curve_with(table, settings, cosmology, previous, Effort::Full)?.ok_or_else(|| {
+        LiveError::Physics(PhysicsError::NoSolution {
+            reason: "the halo-first search gave no answer".into(),
+        })
+    })
+}
+
+/// [`live_curve`] within an [`Effort`]: `Ok(None)` when [`Effort::Quick`] is not enough (the
+/// SIDM core could not be followed and a global search is needed); never `None` for
+/// [`Effort::Full`].
+pub fn live_curve_with(
+    table: &GalaxyTable,
+    settings: &GalaxySettings,
+    cosmology: &Cosmology,
+    previous: Option<SidmCore>,
+    effort: Effort,
+) -> Result<Option<LiveCurve>, LiveError> {
     let model = GalaxyModel::new(
         table,
         settings.model,
@@ -127,8 +175,14 @@ pub fn live_curve(
     );
     let near = previous.map(SidmCore::to_values);
     let baryons = model.baryons_at_values(&controls)?;
-    let parameters =
-        family.parameters_from_controls(&controls, &model.halo_context(&baryons), near.as_ref())?;
+    let context = model.halo_context(&baryons);
+    let parameters = match effort {
+        Effort::Quick => match family.follow_controls(&controls, &context, near.as_ref()) {
+            Some(parameters) => parameters?,
+            None => return Ok(None),
+        },
+        Effort::Full => family.parameters_from_controls(&controls, &context, near.as_ref())?,
+    };
     let theta = model.theta_from_values(&parameters);
     let components = model.components(&theta)?;
     let chi2 = components.chi2;
@@ -136,11 +190,11 @@ pub fn live_curve(
         .n_points()
         .saturating_sub(model.parameters().len())
         .max(1);
-    Ok(LiveCurve {
+    Ok(Some(LiveCurve {
         chi2,
         chi2_nu: chi2 / dof as f64,
         components,
-    })
+    }))
 }
 
 /// The settings that reproduce a fit's best sample on the controls, and for SIDM the core of

@@ -323,6 +323,14 @@ impl CalderaApp {
             commands.push(Command::Settings(s.clone()));
         }
         ui.separator();
+        if self.solving_live() {
+            ui.label(
+                egui::RichText::new(
+                    "searching for the isothermal core that matches this halo; the curve shown is the last one…",
+                )
+                .italics(),
+            );
+        }
         match (&self.runtime.live, &self.runtime.live_error) {
             (Some(curve), _) => {
                 ui.label(format!(
@@ -486,7 +494,11 @@ impl CalderaApp {
             (Some(c), _) => (c, false),
             (None, Some(c)) => (c, true),
             _ => {
-                ui.label("No curve to show.");
+                ui.label(if self.solving_live() {
+                    "Searching for the isothermal core that matches this halo…"
+                } else {
+                    "No curve to show."
+                });
                 return;
             }
         };

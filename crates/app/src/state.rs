@@ -5,7 +5,7 @@
 use std::collections::BTreeMap;
 use std::path::PathBuf;
 
-use caldera_data::session::{GalaxySettings, HaloModel};
+use caldera_data::session::HaloModel;
 use caldera_data::{ColumnRole, DataError, GalaxyTable};
 use caldera_infer::population::{FolderPosteriors, PopulationFit};
 use caldera_infer::sampler::RunConfig;
@@ -15,7 +15,8 @@ use crate::jobs::Job;
 use crate::live::{LiveCurve, LiveError, SidmCore};
 use crate::population::{ParticleModel, PopulationInputs};
 use crate::worker::{
-    CatalogueLoad, FitOutput, FitProgress, FolderLoad, PopulationProgress, SessionLoad, TableLoad,
+    CatalogueLoad, FitOutput, FitProgress, FolderLoad, LiveKey, LiveRequest, LiveSearch,
+    PopulationProgress, SessionLoad, TableLoad,
 };
 
 /// How serious a message is (the theme gives each its colour).
@@ -106,8 +107,13 @@ pub(crate) struct Runtime {
     pub(crate) selected: Option<usize>,
     pub(crate) live: Option<LiveCurve>,
     pub(crate) live_error: Option<LiveError>,
-    pub(crate) live_key: Option<(usize, GalaxySettings)>,
+    /// The galaxy and settings the shown curve (or the search under way) is for.
+    pub(crate) live_key: Option<LiveKey>,
     pub(crate) last_valid: Option<LiveCurve>,
+    /// The halo-first search running off the UI thread when the live curve needs one.
+    pub(crate) live_search: Option<LiveSearch>,
+    /// The newest search waiting for that one to finish (an older waiting one is dropped).
+    pub(crate) live_pending: Option<LiveRequest>,
     /// The SIDM core the next live curve should follow (a best fit's branch).
     pub(crate) core_hint: Option<SidmCore>,
     pub(crate) fit: Option<Job<FitProgress, FitOutput>>,

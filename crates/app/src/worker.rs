@@ -3,7 +3,7 @@
 
 use std::path::PathBuf;
 
-use caldera_data::session::{HaloModel, load_session};
+use caldera_data::session::{GalaxySettings, HaloModel, load_session};
 use caldera_data::{Catalogue, DataError, GalaxyTable, ReadOptions, load_catalogue, read_table};
 use caldera_infer::population::{
     FolderPosteriors, GalaxyPosterior, PopulationFit, PopulationSettings, Treatment, VelocityModel,
@@ -14,7 +14,10 @@ use caldera_infer::sampler::{Control, Progress};
 use caldera_infer::session::Session;
 use caldera_infer::{FitConfig, FitResult, InferError, fit_galaxy};
 
+use caldera_physics::Cosmology;
+
 use crate::jobs::Job;
+use crate::live::{LiveCurve, LiveError, SidmCore, live_curve};
 
 /// Progress of a fit: the model being fitted and the sampler's report.
 pub type FitProgress = (HaloModel, Progress);
@@ -149,5 +152,33 @@ pub fn start_folder_posteriors_load(
 ) -> FolderLoad {
     read_job(folder, move |f| {
         load_folder_posteriors(f, &prior, max_samples)
+    })
+}
+
+/// Which curve a live solve serves: the galaxy's index and the settings it was asked for.
+pub type LiveKey = (usize, GalaxySettings);
+
+/// A live-curve solve that needs the halo-first search, run off the UI thread.
+pub type LiveSearch = Job<(), (LiveKey, Result<LiveCurve, LiveError>)>;
+
+/// What a live search needs: a copy of the table (small) and the controls.
+pub struct LiveRequest {
+    pub key: LiveKey,
+    pub table: GalaxyTable,
+    pub cosmology: Cosmology,
+    pub previous: Option<SidmCore>,
+}
+
+/// Solves the live curve with the full search (see [`crate::live::Effort::Full`]).
+pub fn start_live_search(request: LiveRequest) -> LiveSearch {
+    Job::spawn("live curve", move |ctx| {
+        let LiveRequest {
+            key,
+            table,
+            cosmology,
+            previous,
+        } = request;
+        let curve = live_curve(&table, &key.1, &cosmology, previous);
+        ctx.output((key, curve));
     })
 }

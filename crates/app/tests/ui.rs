@@ -176,7 +176,7 @@ fn no_solution_is_said_in_place_and_the_last_curve_kept() {
     harness
         .get_by_role_and_label(Role::Slider, "σ/m [cm²/g]")
         .set_value_accesskit(100.0);
-    harness.run();
+    settle(&mut harness);
     assert!(harness.state().live_error().is_some());
     let _ = harness.get_by_label_contains("No curve for these values");
     std::fs::remove_dir_all(&export).ok();
@@ -205,12 +205,12 @@ fn use_best_fit_reproduces_the_fit() {
     harness.run();
     for galaxy in ["Kiln D02", "Kiln S02"] {
         harness.get_by_label(galaxy).click();
-        harness.run();
+        settle(&mut harness);
         fit_and_wait(&mut harness);
         harness
             .get_by_role_and_label(Role::Button, "Use best fit")
             .click();
-        harness.run();
+        settle(&mut harness);
         let model = harness.state().selected_settings().expect("settings").model;
         let fitted = harness
             .state()
@@ -300,7 +300,7 @@ fn the_curve_and_the_residuals_share_one_radius_axis() {
         .position(|n| n == "Kiln D03")
         .expect("Kiln D03 in the demo catalogue");
     harness.get_by_label("Kiln D03").click();
-    harness.run();
+    settle(&mut harness);
     let last_radius = harness
         .state()
         .live_curve()
@@ -322,7 +322,7 @@ fn the_curve_and_the_residuals_share_one_radius_axis() {
     harness
         .get_by_role_and_label(Role::Slider, "V200 [km/s]")
         .set_value_accesskit(400.0);
-    harness.run();
+    settle(&mut harness);
     let r1 = harness
         .state()
         .live_curve()
@@ -422,6 +422,48 @@ fn numbers_read_with_sensible_figures_and_the_born_limit_is_flagged() {
         harness
             .query_by_label_contains("Born approximation not valid here")
             .is_none()
+    );
+    std::fs::remove_dir_all(&export).ok();
+}
+
+#[test]
+fn the_halo_first_search_runs_off_the_ui_thread_and_stale_answers_are_dropped() {
+    // A new galaxy has no core to follow: its halo-first search runs in the background, the
+    // frame returns at once, and another galaxy's curve is not drawn meanwhile. Picking a third
+    // galaxy before the search ends drops the second one's answer.
+    let (options, export) = options("offthread");
+    let mut harness = harness(options);
+    harness.get_by_label("Kiln D03").click();
+    harness.step();
+    assert!(
+        harness.state().solving_live(),
+        "the search ran on the UI thread"
+    );
+    assert!(harness.state().live_curve().is_none());
+    harness.get_by_label("Kiln S01").click();
+    harness.step();
+    settle(&mut harness);
+    assert!(!harness.state().solving_live());
+    let shown = &harness
+        .state()
+        .live_curve()
+        .expect("a curve once the search ends")
+        .components;
+    let demo = Path::new(env!("CARGO_MANIFEST_DIR")).join("../../demo_galaxies/kiln_s01.ecsv");
+    let table = caldera_data::read_table(&demo, &caldera_data::ReadOptions::default())
+        .expect("the demo table");
+    assert_eq!(
+        shown.radius_kpc.len(),
+        table.radius_kpc.len(),
+        "the curve shown is not Kiln S01's"
+    );
+    assert!(
+        shown
+            .radius_kpc
+            .iter()
+            .zip(&table.radius_kpc)
+            .all(|(a, b)| (a - b).abs() < 1e-9 * b.abs().max(1.0)),
+        "the curve shown is not Kiln S01's"
     );
     std::fs::remove_dir_all(&export).ok();
 }

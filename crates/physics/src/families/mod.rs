@@ -147,6 +147,19 @@ pub trait HaloFamily: Sync {
         self.parameters()
     }
 
+    /// Like [`HaloFamily::parameters_from_controls`], but only when the answer is quick: `None`
+    /// when a family that solves for its parameters cannot follow `near` and would need a full
+    /// search (the app then searches off its UI thread). Families whose parameters are their
+    /// controls always answer.
+    fn follow_controls(
+        &self,
+        controls: &ParamValues,
+        context: &HaloContext,
+        near: Option<&ParamValues>,
+    ) -> Option<Result<ParamValues, PhysicsError>> {
+        Some(self.parameters_from_controls(controls, context, near))
+    }
+
     /// The values of [`HaloFamily::parameters`] for hand-set `controls`; `near` (values of a
     /// moment ago) lets a family that solves for its parameters follow the same solution.
     fn parameters_from_controls(

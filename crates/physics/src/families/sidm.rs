@@ -81,6 +81,9 @@ impl HaloFamily for SidmFamily {
         context: &HaloContext,
         near: Option<&ParamValues>,
     ) -> Result<ParamValues, PhysicsError> {
+        if let Some(Ok(followed)) = self.follow_controls(controls, context, near) {
+            return Ok(followed);
+        }
         let sigma_m = controls.require(ParamId::SigmaM)?;
         let setup = setup(sigma_m, context)?;
         let nfw = Nfw::from_v200_c200(
@@ -88,17 +91,36 @@ impl HaloFamily for SidmFamily {
             controls.require(ParamId::C200)?,
             &context.cosmology,
         )?;
-        let guess = near.and_then(|v| Some((v.get(ParamId::Rho0)?, v.get(ParamId::Sigma0)?)));
-        let followed = guess.and_then(|g| sidm::halo_first_near(&setup, &nfw, g).ok());
-        let halo = match followed {
-            Some(halo) => halo,
-            None => sidm::halo_first(&setup, &nfw, Branch::LowestDensity)?,
-        };
+        let halo = sidm::halo_first(&setup, &nfw, Branch::LowestDensity)?;
         let mut values = *controls;
         values.set(ParamId::Rho0, halo.rho0_msun_kpc3());
         values.set(ParamId::Sigma0, halo.sigma0_kms());
         Ok(values)
     }
+    fn follow_controls(
+        &self,
+        controls: &ParamValues,
+        context: &HaloContext,
+        near: Option<&ParamValues>,
+    ) -> Option<Result<ParamValues, PhysicsError>> {
+        // Newton's method from the previous core only (a few integrations); no global search.
+        let guess = near.and_then(|v| Some((v.get(ParamId::Rho0)?, v.get(ParamId::Sigma0)?)))?;
+        let followed = (|| {
+            let setup = setup(controls.require(ParamId::SigmaM)?, context)?;
+            let nfw = Nfw::from_v200_c200(
+                controls.require(ParamId::V200)?,
+                controls.require(ParamId::C200)?,
+                &context.cosmology,
+            )?;
+            sidm::halo_first_near(&setup, &nfw, guess)
+        })();
+        let halo = followed.ok()?;
+        let mut values = *controls;
+        values.set(ParamId::Rho0, halo.rho0_msun_kpc3());
+        values.set(ParamId::Sigma0, halo.sigma0_kms());
+        Some(Ok(values))
+    }
+
     fn controls_from_parameters(
         &self,
         values: &ParamValues,
