@@ -51,4 +51,4 @@ pub use halo::{
     virial_radius_kpc,
 };
 pub use params::{ParamId, ParamValues, Transform};
-pub use sidm::{Branch, SidmHalo, SidmSetup, SidmSummary};
+pub use sidm::{Branch, Search, SidmHalo, SidmSetup, SidmSummary};

@@ -3,8 +3,8 @@
 
 use std::sync::OnceLock;
 
-use super::SidmSetup;
 use super::jeans::{GridSolution, JeansProblem, SEARCH_STEP_LN_XI, STEP_LN_XI};
+use super::{Search, SidmSetup};
 use crate::baryons::{EnclosedMass, NoBaryons, ScaledMass};
 use crate::halo::{HaloProfile, Nfw, nfw_mass_function};
 use crate::roots::brent;
@@ -54,9 +54,17 @@ pub fn invert_nfw_mass_ratio(mass_ratio: f64, guess: Option<f64>) -> Result<f64,
     .map(f64::exp)
 }
 
-/// The universal baryon-free isothermal profile, integrated once.
-fn universal_profile() -> &'static GridSolution {
-    static PROFILE: OnceLock<GridSolution> = OnceLock::new();
+/// The universal baryon-free isothermal profile, integrated once, with at each node the NFW
+/// radius in units of r_s that a match there implies: x = r1/r_s solves the mass-ratio equation
+/// for the node's M(ξ1)/(4π ξ1³ ρ(ξ1)), which depends on the node alone (`None` where no NFW
+/// halo matches). Tabulating x removes the NFW inversion, the costly part, from the scan.
+struct UniversalProfile {
+    grid: GridSolution,
+    x: Vec<Option<f64>>,
+}
+
+fn universal_profile() -> &'static UniversalProfile {
+    static PROFILE: OnceLock<UniversalProfile> = OnceLock::new();
     PROFILE.get_or_init(|| {
         let mut grid = GridSolution::empty();
         // Without baryons the dimensionless problem has no parameters: any (ρ0, σ0) will do.
@@ -69,8 +77,26 @@ fn universal_profile() -> &'static GridSolution {
         {
             grid.nodes.clear();
         }
-        grid
+        let mut guess = None;
+        let x = grid
+            .nodes
+            .iter()
+            .enumerate()
+            .map(|(i, node)| {
+                let t = grid.t_start + i as f64 * grid.step_ln_xi;
+                let x =
+                    invert_nfw_mass_ratio(universal_mass_ratio(t, node.psi, node.m), guess).ok();
+                guess = x;
+                x
+            })
+            .collect();
+        UniversalProfile { grid, x }
     })
+}
+
+/// M(ξ1) / (4π ξ1³ ρ(ξ1)) on the baryon-free profile at t = ln ξ1, in its own units.
+fn universal_mass_ratio(t: f64, psi: f64, m: f64) -> f64 {
+    m * psi.exp() / (3.0 * t).exp()
 }
 
 /// A baryon-free candidate matched at ξ1 on the universal profile.
@@ -79,7 +105,6 @@ struct Candidate {
     discrepancy: f64,
     rho0_msun_kpc3: f64,
     sigma0_kms: f64,
-    x: f64,
 }
 
 /// For a match at ξ1 = e^t with universal (ψ, m): the mass ratio fixes x = r1/r_s, hence r1 and
@@ -97,9 +122,20 @@ fn candidate(
     guess: Option<f64>,
     root: usize,
 ) -> Option<Candidate> {
+    let x = invert_nfw_mass_ratio(universal_mass_ratio(t, psi, m), guess).ok()?;
+    candidate_at(setup, nfw, t, psi, x, root)
+}
+
+/// [`candidate`] with x = r1/r_s already known.
+fn candidate_at(
+    setup: &SidmSetup,
+    nfw: &Nfw,
+    t: f64,
+    psi: f64,
+    x: f64,
+    root: usize,
+) -> Option<Candidate> {
     let xi = t.exp();
-    let mass_ratio = m * psi.exp() / (xi * xi * xi);
-    let x = invert_nfw_mass_ratio(mass_ratio, guess).ok()?;
     let r1 = x * nfw.r_s_kpc;
     let rho1 = nfw.density_msun_kpc3(r1);
     let sigma0 = *setup
@@ -112,7 +148,6 @@ fn candidate(
         discrepancy: (core_scale * xi / r1).ln(),
         rho0_msun_kpc3: rho0,
         sigma0_kms: sigma0,
-        x,
     })
 }
 
@@ -121,6 +156,7 @@ fn candidate(
 pub(super) fn baryon_free_seeds(
     setup: &SidmSetup,
     nfw: &Nfw,
+    search: Search,
 ) -> Result<Vec<(f64, f64)>, PhysicsError> {
     let roots = if matches!(setup.cross_section, CrossSection::Constant { .. }) {
         1
@@ -129,7 +165,7 @@ pub(super) fn baryon_free_seeds(
     };
     let mut seeds = Vec::new();
     for root in 0..roots {
-        seeds.extend(baryon_free_seeds_on_root(setup, nfw, root));
+        seeds.extend(baryon_free_seeds_on_root(setup, nfw, root, search));
     }
     seeds.sort_by(|a, b| a.0.total_cmp(&b.0));
     seeds.dedup_by(|a, b| (a.0 / b.0 - 1.0).abs() < 1e-9);
@@ -140,8 +176,14 @@ pub(super) fn baryon_free_seeds(
 const MAX_RATE_ROOTS: usize = 3;
 
 /// The scan of [`baryon_free_seeds`] along the `root`-th root of the rate condition.
-fn baryon_free_seeds_on_root(setup: &SidmSetup, nfw: &Nfw, root: usize) -> Vec<(f64, f64)> {
-    let grid = universal_profile();
+fn baryon_free_seeds_on_root(
+    setup: &SidmSetup,
+    nfw: &Nfw,
+    root: usize,
+    search: Search,
+) -> Vec<(f64, f64)> {
+    let universal = universal_profile();
+    let grid = &universal.grid;
     let on_profile = |t: f64, guess: Option<f64>| {
         let (psi, m) = grid.state_at(t);
         candidate(setup, nfw, t, psi, m, guess, root)
@@ -160,10 +202,9 @@ fn baryon_free_seeds_on_root(setup: &SidmSetup, nfw: &Nfw, root: usize) -> Vec<(
     let mut seeds = Vec::new();
     // The last two valid (t, discrepancy) pairs, newest last.
     let mut recent: Vec<(f64, f64)> = Vec::with_capacity(3);
-    let mut guess = None;
-    for (i, node) in grid.nodes.iter().enumerate() {
+    for (i, (node, x)) in grid.nodes.iter().zip(&universal.x).enumerate() {
         let t = grid.t_start + i as f64 * grid.step_ln_xi;
-        let Some(here) = candidate(setup, nfw, t, node.psi, node.m, guess, root) else {
+        let Some(here) = x.and_then(|x| candidate_at(setup, nfw, t, node.psi, x, root)) else {
             // Leaving the region where this root exists (a velocity-dependent σ(v)/m whose
             // rate condition loses its roots at a fold): a root may lie between the last node
             // and the edge.
@@ -177,10 +218,8 @@ fn baryon_free_seeds_on_root(setup: &SidmSetup, nfw: &Nfw, root: usize) -> Vec<(
                 ));
             }
             recent.clear();
-            guess = None;
             continue;
         };
-        guess = Some(here.x);
         let d = here.discrepancy;
         if recent.is_empty() && i > 0 && d > 0.0 {
             // Entering the matchable region (mass ratio just above 1/2): there x → 0 and the
@@ -200,6 +239,7 @@ fn baryon_free_seeds_on_root(setup: &SidmSetup, nfw: &Nfw, root: usize) -> Vec<(
             && (d_b - d_a) * (d - d_b) < 0.0
             && (d_a < 0.0) == (d_b < 0.0)
             && (d_b < 0.0) == (d < 0.0)
+            && (search == Search::Exhaustive || may_reach_zero(d_a, d_b, d))
         {
             // An extremum of the discrepancy between grid nodes that does not change sign there
             // may still touch or cross zero (two close solutions near a fold of the mass ratio).
@@ -217,6 +257,15 @@ fn baryon_free_seeds_on_root(setup: &SidmSetup, nfw: &Nfw, root: usize) -> Vec<(
         }
     }
     seeds
+}
+
+/// Whether the extremum of a smooth function between three equally spaced nodes with values
+/// `before`, `middle` (the extreme one) and `after` can reach zero. The parabola through them
+/// peaks within half a step of the middle node, at most (|after − before|)/8 beyond `middle`;
+/// the test allows eight times that, so only extrema far from zero are skipped (the golden-
+/// section search of [`roots_near_extremum`] is the costly part of the scan).
+fn may_reach_zero(before: f64, middle: f64, after: f64) -> bool {
+    middle.abs() <= (middle - before).abs() + (after - middle).abs()
 }
 
 /// Between a node `t_valid` with a candidate (discrepancy `d_valid`) and `t_invalid` without
@@ -296,7 +345,7 @@ fn seed_near_threshold(
 ) -> Option<(f64, f64)> {
     let ratio_excess = |t: f64| {
         let (psi, m) = grid.state_at(t);
-        m * psi.exp() / (3.0 * t).exp() - 0.5
+        universal_mass_ratio(t, psi, m) - 0.5
     };
     let threshold = brent(ratio_excess, t_low, t_high, 1e-15, "mass-ratio threshold").ok()?;
     let on_profile = |t: f64| {
@@ -333,7 +382,16 @@ const GRID_DISPERSION_RANGE: (f64, f64) = (0.03, 4.0);
 /// ρ0/ρ1 ≈ 5·10⁸ — and Newton's method starts from every cell across which both residuals
 /// change sign. Slower than continuation (about a thousand integrations), but it finds solutions
 /// that exist only because of the baryons or lie on a denser core branch at the same σ0.
-pub(super) fn grid_search(setup: &SidmSetup, nfw: &Nfw) -> Vec<(f64, f64)> {
+///
+/// With [`Search::Fast`], a cell holding one of the `known` solutions (found by continuation)
+/// starts no Newton iteration — it would return that solution — and the known solution joins the
+/// grid's own for the search for close partners.
+pub(super) fn grid_search(
+    setup: &SidmSetup,
+    nfw: &Nfw,
+    search: Search,
+    known: &[(f64, f64)],
+) -> Vec<(f64, f64)> {
     // The halo's and the baryons' velocity scales set the range of σ0.
     let v_halo = nfw.v_circ_kms(2.16258 * nfw.r_s_kpc);
     let v_baryons =
@@ -353,6 +411,21 @@ pub(super) fn grid_search(setup: &SidmSetup, nfw: &Nfw) -> Vec<(f64, f64)> {
             .rate_density_msun_kpc3(ln_sigma0.exp(), setup.age_gyr);
         [rho1.ln() + psi1, ln_sigma0]
     };
+    // Fractional grid position (i, j) of a solution (ρ0, σ0): the inverse of `point`.
+    let position = |(rho0, sigma0): (f64, f64)| -> (f64, f64) {
+        let rho1 = setup
+            .cross_section
+            .rate_density_msun_kpc3(sigma0, setup.age_gyr);
+        let psi1 = (rho0 / rho1).ln();
+        (
+            (sigma0.ln() - low) / (high - low) * (GRID_DISPERSIONS - 1) as f64,
+            (psi1 / GRID_PSI_RANGE.0).ln() / psi_ratio.ln(),
+        )
+    };
+    let known_cells: Vec<(f64, f64)> = match search {
+        Search::Fast => known.iter().map(|&k| position(k)).collect(),
+        Search::Exhaustive => Vec::new(),
+    };
     let mut values = Vec::with_capacity(GRID_DISPERSIONS * GRID_PSI);
     for i in 0..GRID_DISPERSIONS {
         for j in 0..GRID_PSI {
@@ -366,6 +439,9 @@ pub(super) fn grid_search(setup: &SidmSetup, nfw: &Nfw) -> Vec<(f64, f64)> {
         }
     }
     let mut seeds: Vec<(f64, f64)> = Vec::new();
+    // Known solutions met in a cell with a sign change (Fast only): partners are sought around
+    // them as around the grid's own.
+    let mut met: Vec<(f64, f64)> = Vec::new();
     for i in 0..GRID_DISPERSIONS - 1 {
         for j in 0..GRID_PSI - 1 {
             let corners = [
@@ -380,6 +456,15 @@ pub(super) fn grid_search(setup: &SidmSetup, nfw: &Nfw) -> Vec<(f64, f64)> {
             let Some((along_sigma, along_psi)) = bilinear_zero(&corners) else {
                 continue;
             };
+            let inside = |&(a, b): &(f64, f64)| {
+                (i as f64..=(i + 1) as f64).contains(&a) && (j as f64..=(j + 1) as f64).contains(&b)
+            };
+            if let Some(k) = known_cells.iter().position(inside) {
+                if !met.contains(&known[k]) {
+                    met.push(known[k]);
+                }
+                continue;
+            }
             let start = point(i as f64 + along_sigma, j as f64 + along_psi);
             if let Some(u) = newton(setup, nfw, setup.baryons, start, 15) {
                 let solution = (u[0].exp(), u[1].exp());
@@ -389,7 +474,16 @@ pub(super) fn grid_search(setup: &SidmSetup, nfw: &Nfw) -> Vec<(f64, f64)> {
             }
         }
     }
-    let partners = partners_of(setup, nfw, &seeds);
+    let around: Vec<(f64, f64)> = seeds
+        .iter()
+        .chain(met.iter().filter(|m| {
+            !seeds
+                .iter()
+                .any(|s| (s.0 / m.0 - 1.0).abs() < 1e-6 && (s.1 / m.1 - 1.0).abs() < 1e-6)
+        }))
+        .copied()
+        .collect();
+    let partners = partners_of(setup, nfw, &around);
     seeds.extend(partners);
     seeds
 }
