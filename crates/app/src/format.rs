@@ -42,6 +42,22 @@ pub fn significant(value: f64, digits: u32) -> String {
     }
 }
 
+/// `value` for a slider's edit box: four significant figures, plain decimals between 10⁻³ and
+/// 10⁵, otherwise Rust's exponent form ("5.320e7"), so what is shown can be typed back.
+#[must_use]
+pub fn editable(value: f64) -> String {
+    if !value.is_finite() || value == 0.0 {
+        return format!("{value}");
+    }
+    let exponent = value.abs().log10().floor() as i32;
+    if (-3..5).contains(&exponent) {
+        let decimals = (3 - exponent).max(0) as usize;
+        format!("{value:.decimals$}")
+    } else {
+        format!("{value:.3e}")
+    }
+}
+
 /// A posterior summary as "median (+up / −down)" with the median to the precision of its
 /// smaller error (two significant figures of it), and the percentiles named.
 #[must_use]
@@ -86,6 +102,18 @@ mod tests {
         assert_eq!(significant(-0.000_012_3, 2), "-1.2×10⁻⁵");
         assert_eq!(significant(99_999.0, 2), "1.0×10⁵");
         assert_eq!(significant(0.0, 3), "0");
+    }
+
+    #[test]
+    fn slider_numbers_have_four_figures_and_read_back() {
+        assert_eq!(editable(36.519_23), "36.52");
+        assert_eq!(editable(1.0), "1.000");
+        assert_eq!(editable(0.012_345), "0.01235");
+        assert_eq!(editable(53_200_000.0), "5.320e7");
+        for v in [36.519_23, 0.012_345, 53_200_000.0, 4e-5] {
+            let back: f64 = editable(v).parse().expect("parses");
+            assert!((back / v - 1.0).abs() < 1e-3, "{v} → {}", editable(v));
+        }
     }
 
     #[test]

@@ -23,13 +23,13 @@ fn power_of_ten(mark: egui_plot::GridMark, _range: &std::ops::RangeInclusive<f64
     significant(10f64.powf(mark.value), 2)
 }
 
-/// The plot corner with the fewest data points near it (within 40% of each axis), for the
+/// The plot corner least crowded (within 40% of each axis) by `points` (x, y, weight), for the
 /// legend; ties go to the lower right, where rotation curves are usually empty of data.
-fn emptiest_corner(x: &[f64], y: &[f64], x_max: f64, y_max: f64) -> Corner {
-    let crowd = |corner: Corner| {
-        x.iter()
-            .zip(y)
-            .filter(|&(&px, &py)| {
+fn emptiest_corner(points: &[(f64, f64, usize)], x_max: f64, y_max: f64) -> Corner {
+    let crowd = |corner: Corner| -> usize {
+        points
+            .iter()
+            .filter(|&&(px, py, _)| {
                 let (fx, fy) = (px / x_max, py / y_max.max(1e-9));
                 let near_x = match corner {
                     Corner::LeftTop | Corner::LeftBottom => fx < 0.4,
@@ -41,7 +41,8 @@ fn emptiest_corner(x: &[f64], y: &[f64], x_max: f64, y_max: f64) -> Corner {
                 };
                 near_x && near_y
             })
-            .count()
+            .map(|p| p.2)
+            .sum()
     };
     [
         Corner::RightBottom,
@@ -520,7 +521,24 @@ impl CalderaApp {
             .zip(&c.v_err_kms)
             .map(|(v, e)| v + e)
             .fold(0.0, f64::max);
-        let legend_corner = emptiest_corner(&c.radius_kpc, &c.v_obs_kms, x_max, y_top);
+        // A data point weighs five curve samples (the curves are sampled at the data radii and
+        // on the fine grid of the halo and total): hiding data is worse than crossing a curve.
+        let mut crowd: Vec<(f64, f64, usize)> = Vec::new();
+        let mut add = |radii: &[f64], values: &[f64], weight: usize| {
+            crowd.extend(radii.iter().zip(values).map(|(&r, &v)| (r, v, weight)));
+        };
+        add(&c.radius_kpc, &c.v_obs_kms, 5);
+        add(&c.radius_kpc, &c.v_gas_kms, 1);
+        add(&c.radius_kpc, &c.v_disk_kms, 1);
+        if let Some(bulge) = &c.v_bulge_kms {
+            add(&c.radius_kpc, bulge, 1);
+        }
+        let stride = (c.fine_radius_kpc.len() / c.radius_kpc.len().max(1)).max(1);
+        let every = |v: &[f64]| v.iter().step_by(stride).copied().collect::<Vec<f64>>();
+        let fine = every(&c.fine_radius_kpc);
+        add(&fine, &every(&c.v_halo_fine_kms), 1);
+        add(&fine, &every(&c.v_total_fine_kms), 1);
+        let legend_corner = emptiest_corner(&crowd, x_max, y_top);
         let (curve_id, residual_id) = crate::curve_plot_ids(galaxy);
         Plot::new(("rotation curve", galaxy))
             .id(curve_id)
@@ -902,6 +920,8 @@ fn parameter_slider(ui: &mut egui::Ui, id: ParamId, value: &mut f64) {
     ui.add(
         egui::Slider::new(value, low..=high)
             .logarithmic(logarithmic)
+            .custom_formatter(|v, _| crate::format::editable(v))
+            .custom_parser(|text| text.trim().parse().ok())
             .text(id.label()),
     )
     .on_hover_text(id.description());

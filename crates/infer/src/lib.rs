@@ -32,6 +32,7 @@ pub mod run_folder;
 pub mod sampler;
 pub mod session;
 pub mod summary;
+pub mod tempering;
 
 pub use error::InferError;
 pub use fit::{FitConfig, FitResult, FitSummary, fit_galaxy};
