@@ -53,14 +53,19 @@ impl SplitDensity for Bimodal {
     fn dim(&self) -> usize {
         2
     }
-    fn log_prior(&self, theta: &[f64]) -> f64 {
-        box_log_prior(theta, &[(-20.0, 20.0), (-20.0, 20.0)])
-    }
-    fn log_likelihood(&self, theta: &[f64]) -> f64 {
-        let mode =
-            |c: f64, w: f64| w.ln() - LN_2PI - 0.5 * ((theta[0] - c).powi(2) + theta[1].powi(2));
-        let (a, b) = (mode(-5.0, 0.3), mode(5.0, 0.7));
-        a.max(b) + (-(a - b).abs()).exp().ln_1p()
+    fn log_prior_and_likelihood(&self, theta: &[f64]) -> (f64, f64) {
+        let log_prior = { box_log_prior(theta, &[(-20.0, 20.0), (-20.0, 20.0)]) };
+        if !log_prior.is_finite() {
+            return (log_prior, f64::NEG_INFINITY);
+        }
+        let log_likelihood = {
+            let mode = |c: f64, w: f64| {
+                w.ln() - LN_2PI - 0.5 * ((theta[0] - c).powi(2) + theta[1].powi(2))
+            };
+            let (a, b) = (mode(-5.0, 0.3), mode(5.0, 0.7));
+            a.max(b) + (-(a - b).abs()).exp().ln_1p()
+        };
+        (log_prior, log_likelihood)
     }
 }
 
@@ -188,17 +193,21 @@ impl SplitDensity for CorrelatedGaussian {
     fn dim(&self) -> usize {
         3
     }
-    fn log_prior(&self, theta: &[f64]) -> f64 {
-        box_log_prior(theta, &[(-10.0, 10.0); 3])
-    }
-    fn log_likelihood(&self, theta: &[f64]) -> f64 {
-        let mut q = 0.0;
-        for i in 0..3 {
-            for j in 0..3 {
-                q += theta[i] * self.inverse[i][j] * theta[j];
-            }
+    fn log_prior_and_likelihood(&self, theta: &[f64]) -> (f64, f64) {
+        let log_prior = { box_log_prior(theta, &[(-10.0, 10.0); 3]) };
+        if !log_prior.is_finite() {
+            return (log_prior, f64::NEG_INFINITY);
         }
-        self.log_norm - 0.5 * q
+        let log_likelihood = {
+            let mut q = 0.0;
+            for i in 0..3 {
+                for j in 0..3 {
+                    q += theta[i] * self.inverse[i][j] * theta[j];
+                }
+            }
+            self.log_norm - 0.5 * q
+        };
+        (log_prior, log_likelihood)
     }
 }
 
@@ -226,17 +235,21 @@ impl SplitDensity for Shells {
     fn dim(&self) -> usize {
         2
     }
-    fn log_prior(&self, theta: &[f64]) -> f64 {
-        box_log_prior(theta, &[(-6.0, 6.0); 2])
-    }
-    fn log_likelihood(&self, theta: &[f64]) -> f64 {
-        let (r, w) = (2.0, 0.1);
-        let term = |c: f64| {
-            let d = (theta[0] - c).hypot(theta[1]) - r;
-            -0.5 * d * d / (w * w) - 0.5 * (LN_2PI + 2.0 * f64::ln(w))
+    fn log_prior_and_likelihood(&self, theta: &[f64]) -> (f64, f64) {
+        let log_prior = { box_log_prior(theta, &[(-6.0, 6.0); 2]) };
+        if !log_prior.is_finite() {
+            return (log_prior, f64::NEG_INFINITY);
+        }
+        let log_likelihood = {
+            let (r, w) = (2.0, 0.1);
+            let term = |c: f64| {
+                let d = (theta[0] - c).hypot(theta[1]) - r;
+                -0.5 * d * d / (w * w) - 0.5 * (LN_2PI + 2.0 * f64::ln(w))
+            };
+            let (a, b) = (term(-3.5), term(3.5));
+            a.max(b) + (-(a - b).abs()).exp().ln_1p()
         };
-        let (a, b) = (term(-3.5), term(3.5));
-        a.max(b) + (-(a - b).abs()).exp().ln_1p()
+        (log_prior, log_likelihood)
     }
 }
 
@@ -267,21 +280,25 @@ impl SplitDensity for NfwGalaxy {
     fn dim(&self) -> usize {
         2
     }
-    fn log_prior(&self, theta: &[f64]) -> f64 {
-        box_log_prior(theta, &self.bounds)
-    }
-    fn log_likelihood(&self, theta: &[f64]) -> f64 {
-        let (v200, c) = (10f64.powf(theta[0]), 10f64.powf(theta[1]));
-        let r200 = 100.0 * v200 / self.hubble;
-        let mass = |y: f64| y.ln_1p() - y / (1.0 + y);
-        let mut chi2 = 0.0;
-        for k in 0..self.radius.len() {
-            let x = self.radius[k] / r200;
-            let vh2 = v200 * v200 * mass(c * x) / (x * mass(c));
-            let model = (vh2 + self.v_baryon_sq[k]).sqrt();
-            chi2 += ((self.v_obs[k] - model) / self.v_err[k]).powi(2);
+    fn log_prior_and_likelihood(&self, theta: &[f64]) -> (f64, f64) {
+        let log_prior = { box_log_prior(theta, &self.bounds) };
+        if !log_prior.is_finite() {
+            return (log_prior, f64::NEG_INFINITY);
         }
-        self.log_norm - 0.5 * chi2
+        let log_likelihood = {
+            let (v200, c) = (10f64.powf(theta[0]), 10f64.powf(theta[1]));
+            let r200 = 100.0 * v200 / self.hubble;
+            let mass = |y: f64| y.ln_1p() - y / (1.0 + y);
+            let mut chi2 = 0.0;
+            for k in 0..self.radius.len() {
+                let x = self.radius[k] / r200;
+                let vh2 = v200 * v200 * mass(c * x) / (x * mass(c));
+                let model = (vh2 + self.v_baryon_sq[k]).sqrt();
+                chi2 += ((self.v_obs[k] - model) / self.v_err[k]).powi(2);
+            }
+            self.log_norm - 0.5 * chi2
+        };
+        (log_prior, log_likelihood)
     }
 }
 

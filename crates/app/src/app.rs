@@ -19,6 +19,8 @@ use caldera_report::tables::{latex_table, results_table};
 
 use crate::commands::Command;
 use crate::jobs::Job;
+use caldera_infer::tempering::LadderConfig;
+
 use crate::live::{Effort, LiveCurve, LiveError, live_curve_with, settings_from_fit};
 use crate::population::{ParticleModel, PopulationInputs, linear_curves};
 use crate::state::{
@@ -718,6 +720,10 @@ impl CalderaApp {
                 }
             }
             Command::ExcludeUnconverged(exclude) => self.runtime.exclude_unconverged = exclude,
+            Command::Evidence(on) => {
+                self.session.fit.evidence = on.then(LadderConfig::default);
+                self.runtime.dirty = true;
+            }
             Command::CancelPopulationFit => {
                 if let Some(job) = &self.runtime.population_job {
                     job.cancel();

@@ -36,4 +36,6 @@ pub enum Command {
     FitPopulation,
     CancelPopulationFit,
     ExcludeUnconverged(bool),
+    /// Compute the Bayesian evidence in the next fits (or not).
+    Evidence(bool),
 }

@@ -414,6 +414,16 @@ impl CalderaApp {
                         ]));
                     }
                 });
+                let mut evidence = self.session.fit.evidence.is_some();
+                if ui
+                    .checkbox(&mut evidence, "Bayesian evidence ln Z (slower)")
+                    .on_hover_text(
+                        "After each posterior run, a parallel-tempering ladder computes ln Z by thermodynamic integration: about ten times the fit's time",
+                    )
+                    .changed()
+                {
+                    commands.push(Command::Evidence(evidence));
+                }
             }
         }
         if let Some(result) = self.session.result(&name, settings.model) {
@@ -456,12 +466,31 @@ impl CalderaApp {
             let best_bic = rows.iter().map(|r| r.bic).fold(f64::INFINITY, f64::min);
             let best_aic = rows.iter().map(|r| r.aic).fold(f64::INFINITY, f64::min);
             let preferred = clearly_preferred(&rows, |r| r.bic).map(|r| r.model);
+            // ln Z, when every compared fit has it: ln B against the best model and its words
+            // on the same (Kass & Raftery) scale as ΔBIC, which approximates 2 ln B.
+            let with_evidence = rows.len() > 1 && rows.iter().all(|r| r.log_evidence.is_some());
+            let best_log_z = rows
+                .iter()
+                .filter_map(|r| r.log_evidence)
+                .fold(f64::NEG_INFINITY, f64::max);
             egui::Grid::new("comparison").striped(true).show(ui, |ui| {
-                for h in ["Model", "χ²/ν", "ΔAIC", "ΔBIC", "by ΔBIC"] {
+                let mut heads = vec!["Model", "χ²/ν", "ΔAIC", "ΔBIC", "by ΔBIC"];
+                if with_evidence {
+                    heads.extend(["ln Z", "ln B vs best", "by ln B"]);
+                }
+                for h in heads {
                     ui.label(h);
                 }
                 ui.end_row();
                 for r in &rows {
+                    let evidence = match (with_evidence, r.log_evidence, r.log_evidence_err) {
+                        (true, Some(z), Some(e)) => Some((
+                            format!("{z:.2} ± {e:.2}"),
+                            format!("{:.2}", z - best_log_z),
+                            evidence_words(2.0 * (best_log_z - z)),
+                        )),
+                        _ => None,
+                    };
                     comparison_row_ui(
                         ui,
                         r.model.name(),
@@ -471,9 +500,16 @@ impl CalderaApp {
                             format!("{:.1}", r.aic - best_aic),
                         ],
                         r.bic - best_bic,
+                        evidence,
                     );
                 }
             });
+            ui.label(
+                RichText::new(
+                    "Words: the Kass & Raftery (1995) scale for 2 ln B (ΔBIC approximates it); conventions, common practice.",
+                )
+                .small(),
+            );
         }
         if let Some(result) = self.runtime.fits.get(&(name.clone(), settings.model)) {
             ui.separator();
@@ -899,6 +935,7 @@ pub(crate) fn comparison_row_ui(
     preferred: bool,
     cells: &[String],
     delta_bic: f64,
+    evidence: Option<(String, String, &str)>,
 ) {
     if preferred {
         ui.label(RichText::new(format!("{name} (preferred)")).strong());
@@ -910,6 +947,11 @@ pub(crate) fn comparison_row_ui(
     }
     ui.label(format!("{delta_bic:.2}"));
     ui.label(evidence_words(delta_bic));
+    if let Some((log_z, log_b, words)) = evidence {
+        ui.label(log_z);
+        ui.label(log_b);
+        ui.label(words);
+    }
     ui.end_row();
 }
 

@@ -175,6 +175,7 @@ impl CalderaApp {
                                 format!("{:.2}", fit.aic - best_aic),
                             ],
                             fit.bic - best_bic,
+                            None,
                         );
                     }
                 });

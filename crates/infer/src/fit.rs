@@ -18,6 +18,7 @@ use crate::pipeline::{SamplingPlan, bounded_interval, information_criteria, samp
 use crate::priors::Priors;
 use crate::sampler::{ChainStore, LogDensity, MoveMix, Observer, RunConfig};
 use crate::summary::{Interval, interval};
+use crate::tempering::{LadderConfig, run_tempered};
 
 /// Everything that controls a fit (saved with a session).
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
@@ -34,6 +35,11 @@ pub struct FitConfig {
     pub age_gyr: Option<f64>,
     /// The sampler's moves.
     pub moves: MoveMix,
+    /// Also compute the Bayesian evidence ln Z by parallel tempering on this ladder (after the
+    /// posterior run, from its walkers; [`crate::tempering`]); None skips it (the default: it
+    /// costs about rungs × steps / (the posterior run's steps) times the fit).
+    #[serde(default)]
+    pub evidence: Option<LadderConfig>,
 }
 
 impl Default for FitConfig {
@@ -47,6 +53,7 @@ impl Default for FitConfig {
             cosmology: Cosmology::default(),
             age_gyr: None,
             moves: MoveMix::default(),
+            evidence: None,
         }
     }
 }
@@ -95,6 +102,14 @@ pub struct FitSummary {
     /// Best-fitting physical parameter values, by parameter key ([`caldera_physics::ParamId::key`]).
     pub best_fit: BTreeMap<String, f64>,
     pub failures: FailureSummary,
+    /// ln Z, the Bayesian evidence under the fit's priors (thermodynamic integration over a
+    /// parallel-tempering ladder), when asked for; the likelihood carries its normalisation,
+    /// so differences between models of one galaxy are ln Bayes factors.
+    #[serde(default)]
+    pub log_evidence: Option<f64>,
+    /// Standard uncertainty of [`FitSummary::log_evidence`].
+    #[serde(default)]
+    pub log_evidence_err: Option<f64>,
 }
 
 /// A finished fit: its summary, the kept samples and the best-fitting model curve.
@@ -197,6 +212,28 @@ pub fn fit_galaxy<O: Observer>(
     let rhat_max = split_rhat(chain, burn_in)
         .into_iter()
         .fold(f64::NAN, f64::max);
+    // The evidence, from the posterior run's final walkers (all at finite density).
+    let evidence = match (&config.evidence, outcome.cancelled) {
+        (Some(ladder), false) => {
+            let initial: Vec<Vec<f64>> = outcome
+                .state
+                .walkers
+                .iter()
+                .map(|w| w.position.clone())
+                .collect();
+            Some(
+                run_tempered(
+                    &posterior,
+                    &config.moves,
+                    &initial,
+                    ladder,
+                    config.seed ^ 0x7e3b_e11d,
+                )?
+                .evidence,
+            )
+        }
+        _ => None,
+    };
     let summary = FitSummary {
         galaxy: table.meta.name.clone(),
         model,
@@ -242,6 +279,8 @@ pub fn fit_galaxy<O: Observer>(
             .map(|(id, value)| (id.key().to_string(), value))
             .collect(),
         failures: posterior.failure_summary(),
+        log_evidence: evidence.as_ref().map(|e| e.log_evidence),
+        log_evidence_err: evidence.as_ref().map(|e| e.log_evidence_err),
     };
     Ok(FitResult {
         summary,

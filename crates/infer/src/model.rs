@@ -578,6 +578,24 @@ impl GalaxyModel {
     }
 }
 
+/// The posterior split for tempering: the prior (layout and concentration–mass terms, support
+/// where the halo exists) and the normalised Gaussian likelihood.
+impl crate::tempering::SplitDensity for GalaxyModel {
+    fn dim(&self) -> usize {
+        self.layout.len()
+    }
+
+    fn log_prior_and_likelihood(&self, theta: &[f64]) -> (f64, f64) {
+        let mut derived = [f64::NAN; DERIVED_NAMES.len()];
+        let log_density = self.log_density(theta, &mut derived);
+        if !log_density.is_finite() {
+            return (f64::NEG_INFINITY, f64::NEG_INFINITY);
+        }
+        let log_likelihood = derived[Derived::LogLikelihood as usize];
+        (log_density - log_likelihood, log_likelihood)
+    }
+}
+
 impl LogDensity for GalaxyModel {
     fn dim(&self) -> usize {
         self.layout.len()

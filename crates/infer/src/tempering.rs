@@ -24,15 +24,15 @@ use crate::InferError;
 use crate::diagnostics::{autocorrelation, integrated_time};
 use crate::sampler::{ChainStore, EnsembleState, LogDensity, Move};
 
-/// A posterior split into a normalised prior and a likelihood: tempering raises only the
-/// likelihood, and the evidence is absolute only when the prior integrates to one.
+/// A posterior split into a prior and a likelihood: tempering raises only the likelihood. The
+/// prior need not be normalised — thermodynamic integration gives ln ∫ p L − ln ∫ p, the evidence
+/// under the normalised prior — but the likelihood must carry its normalisation for ln Z to be
+/// absolute (comparable between models).
 pub trait SplitDensity: Sync {
     /// Number of parameters.
     fn dim(&self) -> usize;
-    /// ln p(θ), normalised; −∞ outside the prior's support.
-    fn log_prior(&self, theta: &[f64]) -> f64;
-    /// ln L(θ) (with its normalisation, for an absolute evidence).
-    fn log_likelihood(&self, theta: &[f64]) -> f64;
+    /// (ln p(θ), ln L(θ)); ln p = −∞ outside the prior's support (ln L is then not used).
+    fn log_prior_and_likelihood(&self, theta: &[f64]) -> (f64, f64);
 }
 
 /// One rung: p(θ) L(θ)^β, with (ln p, ln L) as the derived quantities.
@@ -49,11 +49,10 @@ impl<D: SplitDensity> LogDensity for Rung<'_, D> {
         2
     }
     fn log_density(&self, theta: &[f64], derived: &mut [f64]) -> f64 {
-        let log_prior = self.density.log_prior(theta);
+        let (log_prior, log_likelihood) = self.density.log_prior_and_likelihood(theta);
         if !log_prior.is_finite() {
             return f64::NEG_INFINITY;
         }
-        let log_likelihood = self.density.log_likelihood(theta);
         derived[0] = log_prior;
         derived[1] = log_likelihood;
         if !log_likelihood.is_finite() {

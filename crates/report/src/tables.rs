@@ -79,6 +79,20 @@ pub fn results_table(rows: &[ResultRow]) -> OutputTable {
         .with_column("chi2_nu", None, rows.iter().map(|r| r.chi2_nu).collect())
         .with_column("aic", None, rows.iter().map(|r| r.aic).collect())
         .with_column("bic", None, rows.iter().map(|r| r.bic).collect())
+        .with_column(
+            "log_evidence",
+            None,
+            rows.iter()
+                .map(|r| r.log_evidence.unwrap_or(f64::NAN))
+                .collect(),
+        )
+        .with_column(
+            "log_evidence_err",
+            None,
+            rows.iter()
+                .map(|r| r.log_evidence_err.unwrap_or(f64::NAN))
+                .collect(),
+        )
         .with_flag_column("converged", rows.iter().map(|r| r.converged).collect())
         .with_column("tau_max", None, rows.iter().map(|r| r.tau_max).collect())
         .with_column("age", Some("Gyr"), rows.iter().map(|r| r.age_gyr).collect())
@@ -131,13 +145,25 @@ fn latex_escape(text: &str) -> String {
 /// halo age, χ²/ν and BIC per galaxy and model; unconverged fits marked with a dagger.
 #[must_use]
 pub fn latex_table(rows: &[ResultRow]) -> String {
-    let mut out = String::from(
-        "\\begin{tabular}{llrrrrrrr}\n\\hline\nGalaxy & Model & $\\sigma/m$ [cm$^2$\\,g$^{-1}$] & $\\langle v_{\\rm rel}\\rangle$ [km\\,s$^{-1}$] & $V_{200}$ [km\\,s$^{-1}$] & $c_{200}$ & $t_{\\rm age}$ [Gyr] & $\\chi^2/\\nu$ & BIC \\\\\n\\hline\n",
+    // ln Z appears as a column when any row has it.
+    let with_evidence = rows.iter().any(|r| r.log_evidence.is_some());
+    let (columns, evidence_head) = if with_evidence {
+        ("llrrrrrrrr", " & $\\ln Z$")
+    } else {
+        ("llrrrrrrr", "")
+    };
+    let mut out = format!(
+        "\\begin{{tabular}}{{{columns}}}\n\\hline\nGalaxy & Model & $\\sigma/m$ [cm$^2$\\,g$^{{-1}}$] & $\\langle v_{{\\rm rel}}\\rangle$ [km\\,s$^{{-1}}$] & $V_{{200}}$ [km\\,s$^{{-1}}$] & $c_{{200}}$ & $t_{{\\rm age}}$ [Gyr] & $\\chi^2/\\nu$ & BIC{evidence_head} \\\\\n\\hline\n",
     );
     for r in rows {
         let dagger = if r.converged { "" } else { "$^\\dagger$" };
+        let evidence = match (with_evidence, r.log_evidence, r.log_evidence_err) {
+            (false, _, _) => String::new(),
+            (true, Some(z), Some(e)) => format!(" & ${z:.2} \\pm {e:.2}$"),
+            (true, _, _) => " & --".to_string(),
+        };
         out.push_str(&format!(
-            "{}{dagger} & {} & {} & {} & {} & {} & {} & {:.2} & {:.1} \\\\\n",
+            "{}{dagger} & {} & {} & {} & {} & {} & {} & {:.2} & {:.1}{evidence} \\\\\n",
             latex_escape(&r.galaxy),
             latex_escape(r.model.name()),
             latex_interval(r.sigma_m_cm2_g),
