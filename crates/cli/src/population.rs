@@ -17,7 +17,7 @@ use caldera_infer::run_folder::RunFolder;
 use caldera_infer::sampler::Silent;
 use caldera_infer::session::Session;
 use caldera_infer::summary::Interval;
-use caldera_infer::summary::clearly_preferred;
+use caldera_infer::summary::{clearly_preferred, evidence_words};
 use caldera_physics::cross_section::dispersion_from_mean_relative_speed_kms;
 use caldera_physics::units::BARN_PER_GEV_PER_CM2_PER_G;
 use caldera_physics::{CrossSection, CrossSectionKind};
@@ -76,6 +76,11 @@ pub struct PopulationArgs {
     /// Print the report as JSON.
     #[arg(long)]
     pub json: bool,
+    /// Also compute each model's Bayesian evidence ln Z (parallel tempering after each fit of
+    /// the population treatment; not the joint one, ten times costlier per evaluation) and
+    /// compare the models by ln Bayes factor as well.
+    #[arg(long)]
+    pub evidence: bool,
 }
 
 /// One galaxy as the population fit sees it.
@@ -238,6 +243,14 @@ fn fit_all(
     settings: &PopulationSettings,
     verbosity: Verbosity,
 ) -> anyhow::Result<Vec<PopulationFit>> {
+    // The evidence is computed for the marginal treatment only: the joint likelihood costs about
+    // ten times more per evaluation, which a tempering ladder multiplies again.
+    let settings = &PopulationSettings {
+        evidence: settings
+            .evidence
+            .filter(|_| treatment == Treatment::Marginal),
+        ..*settings
+    };
     let mut fits = Vec::new();
     for &model in models {
         let started = Instant::now();
@@ -285,18 +298,31 @@ fn text_report(report: &Report) -> String {
     let mut section = |title: &str, fits: &[PopulationFit], preferred: Option<VelocityModel>| {
         text += &format!("\n{title}\n");
         let best_bic = fits.iter().map(|f| f.bic).fold(f64::INFINITY, f64::min);
+        let best_log_z = fits
+            .iter()
+            .filter_map(|f| f.log_evidence)
+            .fold(f64::NEG_INFINITY, f64::max);
+        let clearly = clearly_preferred(fits, |f| f.bic).is_some();
         for fit in fits {
+            let evidence = match (fit.log_evidence, fit.log_evidence_err) {
+                (Some(z), Some(e)) => format!(
+                    "  ln Z {z:>8.2} ± {e:.2}  ln B {:>6.2} ({})",
+                    z - best_log_z,
+                    evidence_words(2.0 * (best_log_z - z))
+                ),
+                _ => String::new(),
+            };
             text += &format!(
-                "  {:<10} ln L_max {:>9.2}  AIC {:>8.2}  BIC {:>8.2}  ΔBIC {:>6.2}{}\n",
+                "  {:<10} ln L_max {:>9.2}  AIC {:>8.2}  BIC {:>8.2}  ΔBIC {:>6.2}{evidence}{}\n",
                 fit.model.name(),
                 fit.log_likelihood_max,
                 fit.aic,
                 fit.bic,
                 fit.bic - best_bic,
-                if Some(fit.model) == preferred {
-                    "  preferred"
-                } else {
-                    ""
+                match (Some(fit.model) == preferred, clearly) {
+                    (true, true) => "  preferred by BIC",
+                    (true, false) => "  lowest BIC (a tie)",
+                    _ => "",
                 }
             );
             for p in &fit.parameters {
@@ -464,6 +490,13 @@ pub(crate) fn run(args: &PopulationArgs, verbosity: Verbosity) -> anyhow::Result
             max_steps: args.max_steps,
             ..PopulationSettings::default().run
         },
+        evidence: args
+            .evidence
+            .then(|| caldera_infer::tempering::LadderConfig {
+                rungs: 12,
+                steps: 2000,
+                ..caldera_infer::tempering::LadderConfig::default()
+            }),
         ..PopulationSettings::default()
     };
     let (galaxies, entries, skipped) =

@@ -366,6 +366,21 @@ impl<'a> PopulationLikelihood<'a> {
     }
 }
 
+/// Flat priors on the log10 coordinates within their bounds; the likelihood of the galaxies and
+/// constraints (for the evidence by tempering).
+impl crate::tempering::SplitDensity for PopulationLikelihood<'_> {
+    fn dim(&self) -> usize {
+        self.parameters.len()
+    }
+
+    fn log_prior_and_likelihood(&self, theta: &[f64]) -> (f64, f64) {
+        if !self.in_bounds(theta) {
+            return (f64::NEG_INFINITY, f64::NEG_INFINITY);
+        }
+        (0.0, self.log_likelihood(theta))
+    }
+}
+
 impl LogDensity for PopulationLikelihood<'_> {
     fn dim(&self) -> usize {
         self.parameters.len()

@@ -47,6 +47,8 @@ pub struct PopulationSettings {
     /// Optimiser starts per model for the maximum likelihood.
     pub map_starts: usize,
     pub seed: u64,
+    /// Also compute each model's evidence ln Z by parallel tempering (None: skip).
+    pub evidence: Option<crate::tempering::LadderConfig>,
 }
 
 impl Default for PopulationSettings {
@@ -61,6 +63,7 @@ impl Default for PopulationSettings {
             },
             map_starts: 6,
             seed: 1,
+            evidence: None,
         }
     }
 }
@@ -226,6 +229,12 @@ pub struct PopulationFit {
     pub best_theta: Vec<f64>,
     /// The Yukawa model's fixed dark-matter mass, GeV.
     pub yukawa_dm_mass_gev: f64,
+    /// ln Z under the flat priors on the log10 coordinates (thermodynamic integration), when
+    /// asked for; differences between models under one treatment are ln Bayes factors.
+    #[serde(default)]
+    pub log_evidence: Option<f64>,
+    #[serde(default)]
+    pub log_evidence_err: Option<f64>,
 }
 
 /// Summary of a curve over posterior samples at each velocity: median, 16th and 84th percentiles.
@@ -357,6 +366,27 @@ pub fn fit_population<O: Observer>(
         |trial| density.log_likelihood(trial).is_finite(),
         observer,
     )?;
+    let evidence = match (&settings.evidence, outcome.cancelled) {
+        (Some(ladder), false) => {
+            let initial: Vec<Vec<f64>> = outcome
+                .state
+                .walkers
+                .iter()
+                .map(|w| w.position.clone())
+                .collect();
+            Some(
+                crate::tempering::run_tempered(
+                    &density,
+                    &MoveMix::default(),
+                    &initial,
+                    ladder,
+                    seed ^ 0x7e3b_e11d,
+                )?
+                .evidence,
+            )
+        }
+        _ => None,
+    };
     let (burn_in, thin) = (outcome.burn_in(), outcome.thin());
     let chain = &outcome.chain;
     let mut log_likelihood_max = best.log_posterior;
@@ -440,6 +470,8 @@ pub fn fit_population<O: Observer>(
         samples,
         best_theta,
         yukawa_dm_mass_gev: settings.yukawa_dm_mass_gev,
+        log_evidence: evidence.as_ref().map(|e| e.log_evidence),
+        log_evidence_err: evidence.as_ref().map(|e| e.log_evidence_err),
     })
 }
 
