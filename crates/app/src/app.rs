@@ -447,6 +447,11 @@ impl CalderaApp {
                     .min(RunConfig::default().min_steps),
                 ..self.session.fit.run
             },
+            // The step cap holds for the evidence's tempered run too.
+            evidence: self.session.fit.evidence.map(|ladder| LadderConfig {
+                steps: ladder.steps.min(self.runtime.options.fit_max_steps.max(4)),
+                ..ladder
+            }),
             ..self.session.fit
         }
     }

@@ -6,6 +6,7 @@ use std::path::{Path, PathBuf};
 use std::time::{Duration, Instant};
 
 use caldera_app::{AppOptions, CalderaApp};
+use caldera_data::session::HaloModel;
 use egui::accesskit::Role;
 use egui_kittest::Harness;
 use egui_kittest::kittest::Queryable as _;
@@ -84,7 +85,7 @@ fn load_drag_fit_and_export() {
     assert!(
         !harness
             .state()
-            .fit_summary("Kiln D01", caldera_data::session::HaloModel::Sidm)
+            .fit_summary("Kiln D01", HaloModel::Sidm)
             .expect("a fit")
             .converged
     );
@@ -465,5 +466,48 @@ fn the_halo_first_search_runs_off_the_ui_thread_and_stale_answers_are_dropped() 
             .all(|(a, b)| (a - b).abs() < 1e-9 * b.abs().max(1.0)),
         "the curve shown is not Kiln S01's"
     );
+    std::fs::remove_dir_all(&export).ok();
+}
+
+#[test]
+fn the_model_comparison_shows_the_evidence_when_asked() {
+    // Tick the evidence box, compare models on a dwarf: the table gains ln Z, ln B against the
+    // best model and its words, and every fit carries ln Z with its uncertainty.
+    let (options, export) = options("evidence");
+    let mut harness = harness(options);
+    harness.get_by_label("Kiln D03").click();
+    settle(&mut harness);
+    harness
+        .get_by_label("Bayesian evidence ln Z (slower)")
+        .click();
+    harness.run();
+    harness
+        .get_by_role_and_label(Role::Button, "Compare models")
+        .click();
+    harness.run();
+    let deadline = Instant::now() + Duration::from_secs(300);
+    while harness.state().fitting() && Instant::now() < deadline {
+        std::thread::sleep(Duration::from_millis(20));
+        harness.step();
+    }
+    assert!(!harness.state().fitting(), "the comparison did not finish");
+    harness.run();
+    for model in [HaloModel::Sidm, HaloModel::Nfw, HaloModel::Burkert] {
+        let fit = harness
+            .state()
+            .fit_summary("Kiln D03", model)
+            .expect("a fit");
+        let (z, e) = (
+            fit.log_evidence.expect("ln Z"),
+            fit.log_evidence_err.expect("its error"),
+        );
+        assert!(
+            z.is_finite() && e.is_finite() && e > 0.0,
+            "{model:?}: {z} ± {e}"
+        );
+    }
+    let _ = harness.get_by_label("ln Z");
+    let _ = harness.get_by_label("ln B vs best");
+    let _ = harness.get_by_label("by ln B");
     std::fs::remove_dir_all(&export).ok();
 }
