@@ -1015,6 +1015,7 @@ impl eframe::App for CalderaApp {
             egui::Panel::left("galaxies")
                 .resizable(true)
                 .default_size((0.22 * width).clamp(180.0, 330.0))
+                .max_size((0.3 * width).max(180.0))
                 .show(ui, |ui| {
                     egui::ScrollArea::vertical()
                         .show(ui, |ui| self.catalogue_ui(ui, &mut commands));
@@ -1024,6 +1025,7 @@ impl eframe::App for CalderaApp {
             egui::Panel::right("controls")
                 .resizable(true)
                 .default_size((0.3 * width).clamp(240.0, 330.0))
+                .max_size((0.34 * width).max(240.0))
                 .show(ui, |ui| {
                     egui::ScrollArea::vertical().show(ui, |ui| match self.runtime.view {
                         View::Galaxy => {

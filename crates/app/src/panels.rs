@@ -474,23 +474,11 @@ impl CalderaApp {
                 .filter_map(|r| r.log_evidence)
                 .fold(f64::NEG_INFINITY, f64::max);
             egui::Grid::new("comparison").striped(true).show(ui, |ui| {
-                let mut heads = vec!["Model", "χ²/ν", "ΔAIC", "ΔBIC", "by ΔBIC"];
-                if with_evidence {
-                    heads.extend(["ln Z", "ln B vs best", "by ln B"]);
-                }
-                for h in heads {
+                for h in ["Model", "χ²/ν", "ΔAIC", "ΔBIC", "by ΔBIC"] {
                     ui.label(h);
                 }
                 ui.end_row();
                 for r in &rows {
-                    let evidence = match (with_evidence, r.log_evidence, r.log_evidence_err) {
-                        (true, Some(z), Some(e)) => Some((
-                            format!("{z:.2} ± {e:.2}"),
-                            format!("{:.2}", z - best_log_z),
-                            evidence_words(2.0 * (best_log_z - z)),
-                        )),
-                        _ => None,
-                    };
                     comparison_row_ui(
                         ui,
                         r.model.name(),
@@ -500,10 +488,29 @@ impl CalderaApp {
                             format!("{:.1}", r.aic - best_aic),
                         ],
                         r.bic - best_bic,
-                        evidence,
                     );
                 }
             });
+            // The evidence in a table of its own, so neither table widens the panel.
+            if with_evidence {
+                ui.add_space(4.0);
+                egui::Grid::new("evidence").striped(true).show(ui, |ui| {
+                    for h in ["Model", "ln Z", "ln B vs best", "by ln B"] {
+                        ui.label(h);
+                    }
+                    ui.end_row();
+                    for r in &rows {
+                        let (Some(z), Some(e)) = (r.log_evidence, r.log_evidence_err) else {
+                            continue;
+                        };
+                        ui.label(r.model.name());
+                        ui.label(format!("{z:.2} ± {e:.2}"));
+                        ui.label(format!("{:.2}", z - best_log_z));
+                        ui.label(evidence_words(2.0 * (best_log_z - z)));
+                        ui.end_row();
+                    }
+                });
+            }
             ui.label(
                 RichText::new(
                     "Words: the Kass & Raftery (1995) scale for 2 ln B (ΔBIC approximates it); conventions, common practice.",
@@ -935,7 +942,6 @@ pub(crate) fn comparison_row_ui(
     preferred: bool,
     cells: &[String],
     delta_bic: f64,
-    evidence: Option<(String, String, &str)>,
 ) {
     if preferred {
         ui.label(RichText::new(format!("{name} (preferred)")).strong());
@@ -947,11 +953,6 @@ pub(crate) fn comparison_row_ui(
     }
     ui.label(format!("{delta_bic:.2}"));
     ui.label(evidence_words(delta_bic));
-    if let Some((log_z, log_b, words)) = evidence {
-        ui.label(log_z);
-        ui.label(log_b);
-        ui.label(words);
-    }
     ui.end_row();
 }
 

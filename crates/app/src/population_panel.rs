@@ -175,7 +175,6 @@ impl CalderaApp {
                                 format!("{:.2}", fit.aic - best_aic),
                             ],
                             fit.bic - best_bic,
-                            None,
                         );
                     }
                 });
