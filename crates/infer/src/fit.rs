@@ -18,7 +18,7 @@ use crate::pipeline::{SamplingPlan, bounded_interval, information_criteria, samp
 use crate::priors::Priors;
 use crate::sampler::{ChainStore, LogDensity, MoveMix, Observer, RunConfig};
 use crate::summary::{Interval, interval};
-use crate::tempering::{LadderConfig, run_tempered};
+use crate::tempering::{LadderConfig, evidence_after_run};
 
 /// Everything that controls a fit (saved with a session).
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
@@ -212,28 +212,13 @@ pub fn fit_galaxy<O: Observer>(
     let rhat_max = split_rhat(chain, burn_in)
         .into_iter()
         .fold(f64::NAN, f64::max);
-    // The evidence, from the posterior run's final walkers (all at finite density).
-    let evidence = match (&config.evidence, outcome.cancelled) {
-        (Some(ladder), false) => {
-            let initial: Vec<Vec<f64>> = outcome
-                .state
-                .walkers
-                .iter()
-                .map(|w| w.position.clone())
-                .collect();
-            Some(
-                run_tempered(
-                    &posterior,
-                    &config.moves,
-                    &initial,
-                    ladder,
-                    config.seed ^ 0x7e3b_e11d,
-                )?
-                .evidence,
-            )
-        }
-        _ => None,
-    };
+    let evidence = evidence_after_run(
+        &posterior,
+        &config.moves,
+        &outcome,
+        config.evidence.as_ref(),
+        config.seed ^ 0x7e3b_e11d,
+    )?;
     let summary = FitSummary {
         galaxy: table.meta.name.clone(),
         model,

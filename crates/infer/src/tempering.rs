@@ -22,7 +22,7 @@ use rand_xoshiro::Xoshiro256PlusPlus;
 
 use crate::InferError;
 use crate::diagnostics::{autocorrelation, integrated_time};
-use crate::sampler::{ChainStore, EnsembleState, LogDensity, Move};
+use crate::sampler::{ChainStore, EnsembleState, LogDensity, Move, RunOutcome};
 
 /// A posterior split into a prior and a likelihood: tempering raises only the likelihood. The
 /// prior need not be normalised — thermodynamic integration gives ln ∫ p L − ln ∫ p, the evidence
@@ -109,6 +109,30 @@ pub struct TemperedRun {
     /// The cold rung's (β = 1) chain over the second half: the posterior sample.
     pub cold: ChainStore,
     pub evidence: Evidence,
+}
+
+/// The evidence of `density` after a finished posterior run, the ladder starting from the run's
+/// final walkers (all at finite density): None when no ladder is asked for or the run was
+/// stopped by the user.
+pub fn evidence_after_run<D: SplitDensity, M: Move>(
+    density: &D,
+    mv: &M,
+    outcome: &RunOutcome,
+    ladder: Option<&LadderConfig>,
+    seed: u64,
+) -> Result<Option<Evidence>, InferError> {
+    let Some(ladder) = ladder.filter(|_| !outcome.cancelled) else {
+        return Ok(None);
+    };
+    let initial: Vec<Vec<f64>> = outcome
+        .state
+        .walkers
+        .iter()
+        .map(|w| w.position.clone())
+        .collect();
+    Ok(Some(
+        run_tempered(density, mv, &initial, ladder, seed)?.evidence,
+    ))
 }
 
 /// The ladder's starting β: geometric from 1 to `beta_min` over `rungs − 1` rungs, then 0.

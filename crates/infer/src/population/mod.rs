@@ -366,27 +366,13 @@ pub fn fit_population<O: Observer>(
         |trial| density.log_likelihood(trial).is_finite(),
         observer,
     )?;
-    let evidence = match (&settings.evidence, outcome.cancelled) {
-        (Some(ladder), false) => {
-            let initial: Vec<Vec<f64>> = outcome
-                .state
-                .walkers
-                .iter()
-                .map(|w| w.position.clone())
-                .collect();
-            Some(
-                crate::tempering::run_tempered(
-                    &density,
-                    &MoveMix::default(),
-                    &initial,
-                    ladder,
-                    seed ^ 0x7e3b_e11d,
-                )?
-                .evidence,
-            )
-        }
-        _ => None,
-    };
+    let evidence = crate::tempering::evidence_after_run(
+        &density,
+        &MoveMix::default(),
+        &outcome,
+        settings.evidence.as_ref(),
+        seed ^ 0x7e3b_e11d,
+    )?;
     let (burn_in, thin) = (outcome.burn_in(), outcome.thin());
     let chain = &outcome.chain;
     let mut log_likelihood_max = best.log_posterior;
