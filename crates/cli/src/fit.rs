@@ -119,6 +119,10 @@ pub struct FitSettings {
     /// Steps of the tempered run for --evidence (the first half adapts the ladder).
     #[arg(long, default_value_t = LadderConfig::default().steps, value_name = "N", requires = "evidence")]
     pub evidence_steps: usize,
+    /// Sample the prior alone, without the data: the printed intervals then show what the priors
+    /// imply (σ/m, V200, c200, M200, …), to check them before trusting a fit.
+    #[arg(long)]
+    pub prior_only: bool,
 }
 
 impl FitSettings {
@@ -154,6 +158,7 @@ impl FitSettings {
             seed,
             cosmology,
             age_gyr: self.age,
+            prior_only: self.prior_only,
             evidence: self.evidence.then(|| LadderConfig {
                 rungs: self.evidence_rungs,
                 steps: self.evidence_steps,
@@ -273,6 +278,11 @@ pub(crate) fn text_summary(s: &FitSummary) -> String {
         "{} — {} halo, {} points, {} free parameters, halo age {} Gyr\n",
         s.galaxy, s.model, s.n_points, s.n_parameters, s.age_gyr
     );
+    if s.prior_only {
+        out.push_str(
+            "  PRIOR ONLY: the data were left out; these intervals describe the prior (chi2 is of the best prior sample)\n",
+        );
+    }
     out.push_str(&interval_line("sigma/m", "cm2/g", s.sigma_m_cm2_g.as_ref()));
     out.push_str(&interval_line("<v_rel>", "km/s", s.v_rel_kms.as_ref()));
     out.push_str(&interval_line("r1", "kpc", s.r1_kpc.as_ref()));

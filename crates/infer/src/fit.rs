@@ -40,6 +40,10 @@ pub struct FitConfig {
     /// costs about rungs × steps / (the posterior run's steps) times the fit).
     #[serde(default)]
     pub evidence: Option<LadderConfig>,
+    /// Sample the prior alone (no data): what the priors imply for σ/m, V200, c200, M200, … —
+    /// the check that the prior a user set is the prior the sampler sees.
+    #[serde(default)]
+    pub prior_only: bool,
 }
 
 impl Default for FitConfig {
@@ -54,6 +58,7 @@ impl Default for FitConfig {
             age_gyr: None,
             moves: MoveMix::default(),
             evidence: None,
+            prior_only: false,
         }
     }
 }
@@ -110,6 +115,9 @@ pub struct FitSummary {
     /// Standard uncertainty of [`FitSummary::log_evidence`].
     #[serde(default)]
     pub log_evidence_err: Option<f64>,
+    /// True for a prior-only run (no data in the density): its intervals describe the prior.
+    #[serde(default)]
+    pub prior_only: bool,
 }
 
 /// A finished fit: its summary, the kept samples and the best-fitting model curve.
@@ -131,13 +139,14 @@ pub fn fit_galaxy<O: Observer>(
     config: &FitConfig,
     observer: &mut O,
 ) -> Result<FitResult, InferError> {
-    let posterior = GalaxyModel::new(
+    let mut posterior = GalaxyModel::new(
         table,
         model,
         config.priors,
         config.cosmology,
         config.age_gyr,
     )?;
+    posterior.prior_only = config.prior_only;
     table.check_enough_points(posterior.dim())?;
     let dim = posterior.dim();
     let map = maximum_a_posteriori(&posterior, config.map_starts, config.seed)?;
@@ -266,6 +275,7 @@ pub fn fit_galaxy<O: Observer>(
         failures: posterior.failure_summary(),
         log_evidence: evidence.as_ref().map(|e| e.log_evidence),
         log_evidence_err: evidence.as_ref().map(|e| e.log_evidence_err),
+        prior_only: config.prior_only,
     };
     Ok(FitResult {
         summary,

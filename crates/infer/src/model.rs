@@ -95,6 +95,9 @@ pub struct GalaxyModel {
     distance_mpc: Option<(f64, f64)>,
     inclination_deg: Option<(f64, f64)>,
     pub failures: FailureCounts,
+    /// Sample the prior alone: the data's likelihood is left out of the density (it is still
+    /// computed and reported). The support stays where the halo exists.
+    pub prior_only: bool,
 }
 
 /// Everything a model evaluation produces.
@@ -251,6 +254,7 @@ impl GalaxyModel {
             distance_mpc,
             inclination_deg,
             failures: FailureCounts::default(),
+            prior_only: false,
         })
     }
 
@@ -591,7 +595,11 @@ impl crate::tempering::SplitDensity for GalaxyModel {
         if !log_density.is_finite() {
             return (f64::NEG_INFINITY, f64::NEG_INFINITY);
         }
-        let log_likelihood = derived[Derived::LogLikelihood as usize];
+        let log_likelihood = if self.prior_only {
+            0.0
+        } else {
+            derived[Derived::LogLikelihood as usize]
+        };
         (log_density - log_likelihood, log_likelihood)
     }
 }
@@ -613,7 +621,12 @@ impl LogDensity for GalaxyModel {
         match self.evaluate(theta) {
             Ok((evaluation, values)) => {
                 derived.copy_from_slice(&values);
-                evaluation.log_likelihood + self.log_prior(theta, &values)
+                let log_likelihood = if self.prior_only {
+                    0.0
+                } else {
+                    evaluation.log_likelihood
+                };
+                log_likelihood + self.log_prior(theta, &values)
             }
             Err(error) => {
                 let counter = match error {
