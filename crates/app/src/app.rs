@@ -11,6 +11,7 @@ use caldera_infer::run_folder::RunFolder;
 use caldera_infer::sampler::RunConfig;
 use caldera_infer::session::Session;
 use caldera_infer::summary::clearly_preferred;
+use caldera_infer::tempering::LadderConfig;
 use caldera_infer::{FitConfig, FitSummary};
 use caldera_report::figures::{
     PopulationCurve, PopulationFigure, PopulationPoint, RotationCurveFigure, save_figure,
@@ -19,8 +20,6 @@ use caldera_report::tables::{latex_table, results_table};
 
 use crate::commands::Command;
 use crate::jobs::Job;
-use caldera_infer::tempering::LadderConfig;
-
 use crate::live::{Effort, LiveCurve, LiveError, live_curve_with, settings_from_fit};
 use crate::population::{ParticleModel, PopulationInputs, linear_curves};
 use crate::state::{
