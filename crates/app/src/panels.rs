@@ -270,11 +270,20 @@ impl CalderaApp {
                         .filter(|m| self.session.result(&name, **m).is_some())
                         .map(|m| m.name())
                         .collect();
-                    ui.label(if fitted.is_empty() {
-                        "-".to_string()
-                    } else {
-                        fitted.join(",")
-                    });
+                    // One model by name; several as a count (the list would widen the panel),
+                    // named on hover.
+                    match fitted.as_slice() {
+                        [] => {
+                            ui.label("-");
+                        }
+                        [one] => {
+                            ui.label(*one);
+                        }
+                        several => {
+                            ui.label(format!("{} models", several.len()))
+                                .on_hover_text(several.join(", "));
+                        }
+                    }
                     ui.end_row();
                 }
             });
