@@ -1,5 +1,6 @@
 //! Benchmarks of the inference hot paths: one SIDM log-posterior evaluation for a demo dwarf,
-//! and one galaxy's full SIDM fit (MAP + ensemble sampler to a converged chain) on one core.
+//! and a demo dwarf's and a demo spiral's full SIDM fit (MAP + ensemble sampler to a converged
+//! chain) on one core.
 
 use std::hint::black_box;
 use std::path::Path;
@@ -52,6 +53,19 @@ fn benches(c: &mut Criterion) {
             one_core.install(|| {
                 let result =
                     fit_galaxy(&table, HaloModel::Sidm, &config, &mut Silent).expect("fit");
+                assert!(result.summary.converged);
+                result.summary.n_evaluations
+            })
+        });
+    });
+    // A demo spiral with a bulge (seed 1 of the default config converges here; other seeds may
+    // need more steps, see DEVELOPERS.md).
+    let spiral = demo("kiln_s02.ecsv");
+    group.bench_function("sidm_demo_spiral_one_core", |b| {
+        b.iter(|| {
+            one_core.install(|| {
+                let result =
+                    fit_galaxy(&spiral, HaloModel::Sidm, &config, &mut Silent).expect("fit");
                 assert!(result.summary.converged);
                 result.summary.n_evaluations
             })
