@@ -2,9 +2,9 @@
 //!
 //! 1. The sweep: on every demo galaxy, σ/m, V200 and c200 each dragged over their whole slider
 //!    range (60 steps up, from the galaxy's starting controls), as the app does it: each change
-//!    is first tried on the UI thread with [`Effort::Quick`] (closed form, or the SIDM core
+//!    is first tried on the UI thread with [`quick_live_curve`] (closed form, or the SIDM core
 //!    followed from the one on screen); when that is not enough, the halo-first search runs in
-//!    the background ([`Effort::Full`]) and the next change follows its answer. Printed: the UI
+//!    the background ([`live_curve`]) and the next change follows its answer. Printed: the UI
 //!    thread's time per change (mean and worst; the target is a frame, 16 ms, worst and 2 ms
 //!    mean) and how many changes needed a background search and how long those took.
 //! 2. Criterion benches of one drag step (followed) and the same change solved afresh.
@@ -13,7 +13,7 @@ use std::hint::black_box;
 use std::path::Path;
 use std::time::Instant;
 
-use caldera_app::live::{Effort, live_curve, live_curve_with, starting_settings};
+use caldera_app::live::{live_curve, quick_live_curve, starting_settings};
 use caldera_data::session::{GalaxySettings, HaloModel};
 use caldera_data::{GalaxyTable, ReadOptions, load_catalogue};
 use caldera_physics::{Cosmology, ParamId};
@@ -24,16 +24,6 @@ use criterion::{Criterion, criterion_group, criterion_main};
 struct Sweep {
     ui_ms: Vec<f64>,
     search_ms: Vec<f64>,
-}
-
-fn set(settings: &GalaxySettings, id: ParamId, value: f64) -> GalaxySettings {
-    let mut changed = settings.clone();
-    match id {
-        ParamId::SigmaM => changed.sigma_m_cm2_g = value,
-        ParamId::V200 => changed.v200_kms = value,
-        _ => changed.c200 = value,
-    }
-    changed
 }
 
 fn sweep_galaxy(table: &GalaxyTable, cosmology: &Cosmology, out: &mut Sweep) {
@@ -49,9 +39,10 @@ fn sweep_galaxy(table: &GalaxyTable, cosmology: &Cosmology, out: &mut Sweep) {
             .and_then(|c| c.sidm_core());
         for k in 0..60 {
             let value = low * (high / low).powf(f64::from(k) / 59.0);
-            let changed = set(&start, id, value);
+            let mut changed = start.clone();
+            changed.set_value(id, value);
             let clock = Instant::now();
-            let quick = live_curve_with(table, &changed, cosmology, previous, Effort::Quick);
+            let quick = quick_live_curve(table, &changed, cosmology, previous);
             out.ui_ms.push(clock.elapsed().as_secs_f64() * 1e3);
             match quick {
                 Ok(Some(curve)) => previous = curve.sidm_core(),

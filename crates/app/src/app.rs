@@ -20,7 +20,7 @@ use caldera_report::tables::{latex_table, results_table};
 
 use crate::commands::Command;
 use crate::jobs::Job;
-use crate::live::{Effort, LiveCurve, LiveError, live_curve_with, settings_from_fit};
+use crate::live::{LiveCurve, LiveError, quick_live_curve, settings_from_fit};
 use crate::population::{ParticleModel, PopulationInputs, linear_curves};
 use crate::state::{
     AppOptions, GalaxyEntry, MappingStep, Message, MessageKind, Runtime, SortKey, View,
@@ -368,7 +368,7 @@ impl CalderaApp {
             _ => None,
         };
         let cosmology = self.session.fit.cosmology;
-        let quick = live_curve_with(table, &key.1, &cosmology, previous, Effort::Quick);
+        let quick = quick_live_curve(table, &key.1, &cosmology, previous);
         let request = match quick {
             Ok(Some(curve)) => {
                 self.show_live(Ok(curve));

@@ -11,7 +11,7 @@ use caldera_data::session::GalaxySettings;
 use caldera_infer::model::{Components, GalaxyModel};
 use caldera_infer::priors::{CrossSectionPrior, HaloBounds, Priors};
 use caldera_infer::{FitSummary, InferError};
-use caldera_physics::{Cosmology, ParamId, ParamValues, PhysicsError};
+use caldera_physics::{BaryonTable, Cosmology, ParamId, ParamValues, PhysicsError};
 
 /// Why no live curve exists for the controls' values.
 #[derive(Debug, thiserror::Error)]
@@ -110,21 +110,73 @@ fn live_priors() -> Priors {
     }
 }
 
-/// How much work a live solve may do.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum Effort {
-    /// Only what is quick enough for a frame: closed-form halos, and an SIDM core followed from
-    /// the previous one by Newton's method (a few Jeans integrations).
-    Quick,
-    /// Whatever it takes, including the halo-first global search (milliseconds to tens of
-    /// milliseconds with tabulated baryons): run it off the UI thread.
-    Full,
+/// What every live solve starts from: the galaxy's model under wide bounds, the controls the
+/// halo family reads (plus the nuisances), and the baryons at them.
+struct LiveSetup {
+    model: GalaxyModel,
+    controls: ParamValues,
+    baryons: BaryonTable,
+}
+
+impl LiveSetup {
+    fn new(
+        table: &GalaxyTable,
+        settings: &GalaxySettings,
+        cosmology: &Cosmology,
+    ) -> Result<Self, LiveError> {
+        let model = GalaxyModel::new(
+            table,
+            settings.model,
+            live_priors(),
+            *cosmology,
+            Some(settings.age_gyr),
+        )?;
+        let nuisances = [
+            ParamId::UpsilonDisk,
+            ParamId::UpsilonBulge,
+            ParamId::Distance,
+            ParamId::Inclination,
+        ];
+        let controls = ParamValues::from_pairs(
+            settings
+                .model
+                .family()
+                .controls()
+                .iter()
+                .chain(&nuisances)
+                .filter_map(|&id| settings.value(id).map(|v| (id, v))),
+        );
+        let baryons = model.baryons_at_values(&controls)?;
+        Ok(Self {
+            model,
+            controls,
+            baryons,
+        })
+    }
+
+    /// The curve and its χ² at the family's `parameters`.
+    fn curve(&self, parameters: &ParamValues) -> Result<LiveCurve, LiveError> {
+        let theta = self.model.theta_from_values(parameters);
+        let components = self.model.components(&theta)?;
+        let chi2 = components.chi2;
+        let dof = self
+            .model
+            .n_points()
+            .saturating_sub(self.model.parameters().len())
+            .max(1);
+        Ok(LiveCurve {
+            chi2,
+            chi2_nu: chi2 / dof as f64,
+            components,
+        })
+    }
 }
 
 /// Builds the curve for `settings` on `table`. The error names why no curve exists (for
 /// example, no isothermal core matches the halo). `previous`, the SIDM core of the curve drawn a
 /// moment ago, lets a drag follow the solution by Newton's method instead of searching
-/// afresh (a full search runs when that fails or when there is no previous solution).
+/// afresh (a full search runs when that fails or when there is no previous solution: tens of
+/// milliseconds with tabulated baryons, so the app runs this off its UI thread).
 ///
 /// The halo family says which settings it reads ([`caldera_physics::HaloFamily::controls`]) and
 /// turns them into its parameters (for SIDM, the halo-first solve with the baryons at the set
@@ -135,66 +187,36 @@ pub fn live_curve(
     cosmology: &Cosmology,
     previous: Option<SidmCore>,
 ) -> Result<LiveCurve, LiveError> {
-    live_curve_with(table, settings, cosmology, previous, Effort::Full)?.ok_or_else(|| {
-        LiveError::Physics(PhysicsError::NoSolution {
-            reason: "the halo-first search gave no answer".into(),
-        })
-    })
+    let setup = LiveSetup::new(table, settings, cosmology)?;
+    let near = previous.map(SidmCore::to_values);
+    let parameters = settings.model.family().parameters_from_controls(
+        &setup.controls,
+        &setup.model.halo_context(&setup.baryons),
+        near.as_ref(),
+    )?;
+    setup.curve(&parameters)
 }
 
-/// [`live_curve`] within an [`Effort`]: `Ok(None)` when [`Effort::Quick`] is not enough (the
-/// SIDM core could not be followed and a global search is needed); never `None` for
-/// [`Effort::Full`].
-pub fn live_curve_with(
+/// [`live_curve`] limited to what fits in a frame: closed-form halos, and an SIDM core followed
+/// from `previous` by Newton's method (a few Jeans integrations). `Ok(None)` when that is not
+/// enough and the full search of [`live_curve`] is needed.
+pub fn quick_live_curve(
     table: &GalaxyTable,
     settings: &GalaxySettings,
     cosmology: &Cosmology,
     previous: Option<SidmCore>,
-    effort: Effort,
 ) -> Result<Option<LiveCurve>, LiveError> {
-    let model = GalaxyModel::new(
-        table,
-        settings.model,
-        live_priors(),
-        *cosmology,
-        Some(settings.age_gyr),
-    )?;
-    let family = settings.model.family();
-    let nuisances = [
-        ParamId::UpsilonDisk,
-        ParamId::UpsilonBulge,
-        ParamId::Distance,
-        ParamId::Inclination,
-    ];
-    let controls = ParamValues::from_pairs(
-        family
-            .controls()
-            .iter()
-            .chain(&nuisances)
-            .filter_map(|&id| settings.value(id).map(|v| (id, v))),
-    );
+    let setup = LiveSetup::new(table, settings, cosmology)?;
     let near = previous.map(SidmCore::to_values);
-    let baryons = model.baryons_at_values(&controls)?;
-    let context = model.halo_context(&baryons);
-    let parameters = match effort {
-        Effort::Quick => match family.follow_controls(&controls, &context, near.as_ref()) {
-            Some(parameters) => parameters?,
-            None => return Ok(None),
-        },
-        Effort::Full => family.parameters_from_controls(&controls, &context, near.as_ref())?,
-    };
-    let theta = model.theta_from_values(&parameters);
-    let components = model.components(&theta)?;
-    let chi2 = components.chi2;
-    let dof = model
-        .n_points()
-        .saturating_sub(model.parameters().len())
-        .max(1);
-    Ok(Some(LiveCurve {
-        chi2,
-        chi2_nu: chi2 / dof as f64,
-        components,
-    }))
+    let followed = settings.model.family().follow_controls(
+        &setup.controls,
+        &setup.model.halo_context(&setup.baryons),
+        near.as_ref(),
+    );
+    match followed {
+        Some(parameters) => Ok(Some(setup.curve(&parameters?)?)),
+        None => Ok(None),
+    }
 }
 
 /// The settings that reproduce a fit's best sample on the controls, and for SIDM the core of

@@ -169,7 +169,7 @@ pub struct LiveRequest {
     pub previous: Option<SidmCore>,
 }
 
-/// Solves the live curve with the full search (see [`crate::live::Effort::Full`]).
+/// Solves the live curve with the full halo-first search ([`live_curve`]) off the UI thread.
 pub fn start_live_search(request: LiveRequest) -> LiveSearch {
     Job::spawn("live curve", move |ctx| {
         let LiveRequest {

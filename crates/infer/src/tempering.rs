@@ -71,9 +71,10 @@ pub struct LadderConfig {
     pub beta_min: f64,
     /// Ensemble steps; the first half adapts the ladder and is discarded.
     pub steps: usize,
-    /// Adaptation rate ν and lag t₀ of Vousden et al. (2016); their suggested 100 and 1000.
-    pub adaptation_rate: f64,
-    pub adaptation_lag: f64,
+    /// The ladder's adaptation time ν and lag t₀ (Vousden et al. 2016; their suggested 100 and
+    /// 1000 steps): temperatures move by κ(t) = t₀ / (ν (t + t₀)) per step.
+    pub adaptation_time_steps: f64,
+    pub adaptation_lag_steps: f64,
 }
 
 impl Default for LadderConfig {
@@ -82,8 +83,8 @@ impl Default for LadderConfig {
             rungs: 16,
             beta_min: 1e-6,
             steps: 4000,
-            adaptation_rate: 100.0,
-            adaptation_lag: 1000.0,
+            adaptation_time_steps: 100.0,
+            adaptation_lag_steps: 1000.0,
         }
     }
 }
@@ -292,8 +293,8 @@ fn adapt_ladder(
     if k < 4 {
         return;
     }
-    let kappa =
-        config.adaptation_lag / (config.adaptation_rate * (step as f64 + config.adaptation_lag));
+    let kappa = config.adaptation_lag_steps
+        / (config.adaptation_time_steps * (step as f64 + config.adaptation_lag_steps));
     let acceptance: Vec<f64> = window_accepted
         .iter()
         .map(|&a| a as f64 / n_walkers as f64)

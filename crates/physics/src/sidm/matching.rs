@@ -107,7 +107,8 @@ struct Candidate {
     sigma0_kms: f64,
 }
 
-/// For a match at ξ1 = e^t with universal (ψ, m): the mass ratio fixes x = r1/r_s, hence r1 and
+/// For a match at ξ1 = e^t on the universal profile `grid` (its ψ and m interpolated there): the
+/// mass ratio fixes x = r1/r_s, hence r1 and
 /// ρ1 on the target NFW; the rate condition gives σ0, and ρ0 = ρ1 e^ψ. The candidate is a
 /// solution when the core scale this implies, r_c = σ0/√(4πGρ0), puts ξ1 at r1.
 ///
@@ -116,17 +117,16 @@ struct Candidate {
 fn candidate(
     setup: &SidmSetup,
     nfw: &Nfw,
+    grid: &GridSolution,
     t: f64,
-    psi: f64,
-    m: f64,
-    guess: Option<f64>,
     root: usize,
 ) -> Option<Candidate> {
-    let x = invert_nfw_mass_ratio(universal_mass_ratio(t, psi, m), guess).ok()?;
+    let (psi, m) = grid.state_at(t);
+    let x = invert_nfw_mass_ratio(universal_mass_ratio(t, psi, m), None).ok()?;
     candidate_at(setup, nfw, t, psi, x, root)
 }
 
-/// [`candidate`] with x = r1/r_s already known.
+/// [`candidate`] at a node, with its state (ψ) and x = r1/r_s already known.
 fn candidate_at(
     setup: &SidmSetup,
     nfw: &Nfw,
@@ -184,20 +184,17 @@ fn baryon_free_seeds_on_root(
 ) -> Vec<(f64, f64)> {
     let universal = universal_profile();
     let grid = &universal.grid;
-    let on_profile = |t: f64, guess: Option<f64>| {
-        let (psi, m) = grid.state_at(t);
-        candidate(setup, nfw, t, psi, m, guess, root)
-    };
+    let on_profile = |t: f64| candidate(setup, nfw, grid, t, root);
     let root_between = |t_low: f64, t_high: f64| {
         let root = brent(
-            |t| on_profile(t, None).map_or(f64::NAN, |c| c.discrepancy),
+            |t| on_profile(t).map_or(f64::NAN, |c| c.discrepancy),
             t_low,
             t_high,
             1e-13,
             "baryon-free matching scan",
         )
         .ok()?;
-        on_profile(root, None).map(|c| (c.rho0_msun_kpc3, c.sigma0_kms))
+        on_profile(root).map(|c| (c.rho0_msun_kpc3, c.sigma0_kms))
     };
     let mut seeds = Vec::new();
     // The last two valid (t, discrepancy) pairs, newest last.
@@ -272,7 +269,7 @@ fn may_reach_zero(before: f64, middle: f64, after: f64) -> bool {
 /// one, finds the edge of the candidates' existence by bisection and returns the root of the
 /// discrepancy between `t_valid` and the edge, if it changes sign there.
 fn seed_near_edge(
-    on_profile: &dyn Fn(f64, Option<f64>) -> Option<Candidate>,
+    on_profile: &dyn Fn(f64) -> Option<Candidate>,
     root_between: &dyn Fn(f64, f64) -> Option<(f64, f64)>,
     t_valid: f64,
     d_valid: f64,
@@ -281,13 +278,13 @@ fn seed_near_edge(
     let (mut inside, mut outside) = (t_valid, t_invalid);
     for _ in 0..50 {
         let middle = 0.5 * (inside + outside);
-        if on_profile(middle, None).is_some() {
+        if on_profile(middle).is_some() {
             inside = middle;
         } else {
             outside = middle;
         }
     }
-    let edge = on_profile(inside, None)?;
+    let edge = on_profile(inside)?;
     if (edge.discrepancy < 0.0) == (d_valid < 0.0) {
         return None;
     }
@@ -298,14 +295,14 @@ fn seed_near_edge(
 /// reaches zero, returns the roots on either side (or the extremum itself when it touches zero
 /// within the interpolation accuracy of the universal profile).
 fn roots_near_extremum(
-    on_profile: &dyn Fn(f64, Option<f64>) -> Option<Candidate>,
+    on_profile: &dyn Fn(f64) -> Option<Candidate>,
     root_between: &dyn Fn(f64, f64) -> Option<(f64, f64)>,
     t_low: f64,
     t_high: f64,
     is_maximum: bool,
 ) -> Vec<(f64, f64)> {
     let sign = if is_maximum { 1.0 } else { -1.0 };
-    let value = |t: f64| on_profile(t, None).map_or(f64::NEG_INFINITY, |c| sign * c.discrepancy);
+    let value = |t: f64| on_profile(t).map_or(f64::NEG_INFINITY, |c| sign * c.discrepancy);
     let golden = 0.5 * (5f64.sqrt() - 1.0);
     let (mut a, mut b) = (t_low, t_high);
     for _ in 0..60 {
@@ -325,7 +322,7 @@ fn roots_near_extremum(
             .flatten()
             .collect()
     } else if peak > -1e-6 {
-        on_profile(t_peak, None)
+        on_profile(t_peak)
             .map(|c| vec![(c.rho0_msun_kpc3, c.sigma0_kms)])
             .unwrap_or_default()
     } else {
@@ -348,10 +345,7 @@ fn seed_near_threshold(
         universal_mass_ratio(t, psi, m) - 0.5
     };
     let threshold = brent(ratio_excess, t_low, t_high, 1e-15, "mass-ratio threshold").ok()?;
-    let on_profile = |t: f64| {
-        let (psi, m) = grid.state_at(t);
-        candidate(setup, nfw, t, psi, m, None, root)
-    };
+    let on_profile = |t: f64| candidate(setup, nfw, grid, t, root);
     let mut offset = 1e-3 * (t_high - threshold);
     for _ in 0..6 {
         let t = threshold + offset;
