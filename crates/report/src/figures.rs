@@ -70,11 +70,18 @@ fn draw_error<E: std::error::Error + Send + Sync>(e: DrawingAreaErrorKind<E>) ->
     ReportError::Draw(e.to_string())
 }
 
+/// Where a figure's legend sits inside its plotting area.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum LegendCorner {
+    LowerLeft,
+    LowerRight,
+}
+
 /// Draws the legend of the labelled series (`labels`, in order) in one style for every figure, in
 /// the plotting area's lower left or lower right corner.
 fn draw_legend<'a, DB: DrawingBackend + 'a, CT: CoordTranslate>(
     chart: &mut ChartContext<'a, DB, CT>,
-    lower_left: bool,
+    corner: LegendCorner,
     labels: &[&str],
     scale: Scale,
 ) -> Result<(), ReportError> {
@@ -90,7 +97,7 @@ fn draw_legend<'a, DB: DrawingBackend + 'a, CT: CoordTranslate>(
         .estimate_dimension()
         .map_err(|e| ReportError::Draw(e.to_string()))?;
     let (area_w, area_h) = chart.plotting_area().dim_in_pixel();
-    let x = if lower_left {
+    let x = if corner == LegendCorner::LowerLeft {
         gap
     } else {
         area_w as i32 - (text_w + swatch + 2 * margin) - gap
@@ -322,7 +329,7 @@ impl Figure for RotationCurveFigure {
         }
         let mut labels: Vec<&str> = series_names;
         labels.push("observed");
-        draw_legend(&mut chart, false, &labels, scale)?;
+        draw_legend(&mut chart, LegendCorner::LowerRight, &labels, scale)?;
 
         let residuals: Vec<(f64, f64)> = c
             .radius_kpc
@@ -737,7 +744,7 @@ impl Figure for PopulationFigure {
             }
         }
         if !legend_labels.is_empty() {
-            draw_legend(&mut chart, true, &legend_labels, scale)?;
+            draw_legend(&mut chart, LegendCorner::LowerLeft, &legend_labels, scale)?;
         }
         Ok(())
     }
