@@ -14,14 +14,14 @@ use caldera_data::GalaxyTable;
 use caldera_data::session::HaloModel;
 use caldera_physics::units::DEFAULT_HALO_AGE_GYR;
 use caldera_physics::{
-    BaryonComponent, BaryonRows, BaryonTable, BuiltHalo, Cosmology, HaloContext, HaloDerived,
-    NoBaryons, ParamId, ParamValues, PhysicsError, Transform,
+    BaryonComponent, BaryonRows, BaryonTable, BuiltHalo, Cosmology, CrossSection, HaloContext,
+    HaloDerived, NoBaryons, ParamId, ParamValues, PhysicsError, SidmSetup, Transform,
 };
 use serde::{Deserialize, Serialize};
 
 use crate::InferError;
 use crate::layout::{Layout, ParamSpec};
-use crate::priors::{Priors, ln_normal};
+use crate::priors::{Priors, SidmBranches, ln_normal};
 use crate::sampler::LogDensity;
 
 /// Names of the derived quantities recorded with every sample, with units.
@@ -92,6 +92,9 @@ pub struct GalaxyModel {
     /// The table's baryonic rows (the one baryonic mass model).
     rows: BaryonRows,
     has_bulge: bool,
+    /// θ indices of the two coordinates that set the outer halo's (M200, c200), when the family
+    /// is not sampled in (log V200, log c200) itself (see [`GalaxyModel::outer_halo_log_prior`]).
+    outer_halo: Option<[usize; 2]>,
     distance_mpc: Option<(f64, f64)>,
     inclination_deg: Option<(f64, f64)>,
     pub failures: FailureCounts,
@@ -238,6 +241,10 @@ impl GalaxyModel {
             ));
         }
         let rows = table.baryon_rows()?;
+        let outer_halo = model
+            .family()
+            .outer_halo_parameters()
+            .and_then(|[a, b]| Some([layout.index_of(a)?, layout.index_of(b)?]));
         Ok(Self {
             model,
             priors,
@@ -251,6 +258,7 @@ impl GalaxyModel {
             v_err_kms: table.v_err_kms.clone(),
             rows,
             has_bulge: table.v_bulge_kms.is_some(),
+            outer_halo,
             distance_mpc,
             inclination_deg,
             failures: FailureCounts::default(),
@@ -479,19 +487,134 @@ impl GalaxyModel {
         Ok(built)
     }
 
-    /// ln prior of the nuisances and the concentration–mass relation (the halo parameters'
-    /// uniform priors contribute a constant inside the bounds).
-    fn log_prior(&self, theta: &[f64], derived: &[f64]) -> f64 {
-        let mut lp = self.layout.ln_prior(theta);
+    /// ln prior at θ (constants dropped): the layout's priors on the sampled coordinates plus
+    /// the outer halo's ([`GalaxyModel::outer_halo_log_prior`]). `halo` is the halo built at θ.
+    fn log_prior(&self, theta: &[f64], derived: &[f64], halo: &HaloDerived) -> f64 {
+        self.layout.ln_prior(theta) + self.outer_halo_log_prior(theta, derived, halo)
+    }
+
+    /// The outer halo's prior (log V200 uniform within bounds, log c200 normal around the
+    /// Dutton–Macciò relation or uniform, both within bounds) as a density on θ.
+    ///
+    /// NFW and Einasto sample (log V200, log c200): the layout holds the bounds and this adds
+    /// the concentration term. SIDM and Burkert sample other coordinates u = (log ρ0, log σ0)
+    /// or (log ρ0, log r0), mapped to w = (log M200, log c200); the density on u is p(w) |∂w/∂u|,
+    /// so the derived w follow p(w) wherever the map is one-to-one. The Jacobian comes from
+    /// forward differences of the family's own build (two extra builds per evaluation).
+    ///
+    /// Why core-first coordinates with a Jacobian rather than sampling the outer halo and
+    /// solving halo-first: a core-first SIDM solve costs ≈ 10 µs and is smooth in its inputs;
+    /// a halo-first solve with tabulated baryons is a global search for every branch (≈ 2 ms,
+    /// issue benchmarks) and jumps when a branch appears or vanishes. The branch choice is a
+    /// test on the core: the matching map's sheets alternate in orientation (the sign of the
+    /// Jacobian) and are ordered by the core contrast ln(ρ0/ρ1), so whether a core is its halo's
+    /// lowest-density one is mostly read off the core itself, the halo-first search deciding only
+    /// beyond the baryon-free second fold
+    /// ([`caldera_physics::sidm::is_lowest_density_core`]). `tests/outer_halo_prior.rs` checks this rule against the halo-first
+    /// search over halos drawn from the prior with every demo galaxy's baryons.
+    fn outer_halo_log_prior(&self, theta: &[f64], derived: &[f64], halo: &HaloDerived) -> f64 {
         let (m200, c200) = (
             derived[Derived::M200 as usize],
             derived[Derived::C200 as usize],
         );
-        if self.priors.concentration_mass && m200 > 0.0 && c200 > 0.0 {
-            let mu = self.cosmology.dutton_maccio_c200(m200).log10();
-            lp += ln_normal(c200.log10(), mu, self.priors.concentration_scatter_dex);
+        if !(m200 > 0.0 && c200 > 0.0) {
+            // No c200 (pseudo-isothermal): uniform in the sampled coordinates.
+            return 0.0;
         }
-        lp
+        let concentration = if self.priors.concentration_mass {
+            let mu = self.cosmology.dutton_maccio_c200(m200).log10();
+            ln_normal(c200.log10(), mu, self.priors.concentration_scatter_dex)
+        } else {
+            0.0
+        };
+        let Some(indices) = self.outer_halo else {
+            return concentration;
+        };
+        let bounds = &self.priors.halo;
+        let inside = |x: f64, (lo, hi): (f64, f64)| x >= lo && x <= hi;
+        if !(inside(derived[Derived::V200 as usize].log10(), bounds.log10_v200)
+            && inside(c200.log10(), bounds.log10_c200))
+        {
+            return f64::NEG_INFINITY;
+        }
+        let Some(det) = self.outer_halo_jacobian(theta, indices, m200, c200) else {
+            return f64::NEG_INFINITY;
+        };
+        if let Some(contrast) = halo.core_contrast_ln
+            && self.priors.sidm_branches == SidmBranches::LowestDensity
+            && !self.is_lowest_density_core(theta, contrast, det)
+        {
+            return f64::NEG_INFINITY;
+        }
+        concentration + det.abs().ln()
+    }
+
+    /// [`caldera_physics::sidm::is_lowest_density_core`] for the SIDM core at θ.
+    fn is_lowest_density_core(&self, theta: &[f64], contrast: f64, det: f64) -> bool {
+        let values = self.layout.values(theta);
+        let (Some(rho0), Some(sigma0), Some(sigma_m)) = (
+            values.get(ParamId::Rho0),
+            values.get(ParamId::Sigma0),
+            values.get(ParamId::SigmaM),
+        ) else {
+            return false;
+        };
+        let (Ok(baryons), Ok(cross_section)) = (
+            self.baryons_at_values(&values),
+            CrossSection::constant(sigma_m),
+        ) else {
+            return false;
+        };
+        let setup = SidmSetup {
+            cross_section,
+            age_gyr: self.age_gyr,
+            baryons: &baryons,
+            cosmology: self.cosmology,
+        };
+        caldera_physics::sidm::is_lowest_density_core(&setup, (rho0, sigma0), contrast, det)
+    }
+
+    /// det ∂(log10 M200, log10 c200)/∂(θ[i], θ[j]) at θ (both coordinates are base-10
+    /// logarithms), by forward differences; None when a nudged halo cannot be built.
+    fn outer_halo_jacobian(
+        &self,
+        theta: &[f64],
+        [i, j]: [usize; 2],
+        m200: f64,
+        c200: f64,
+    ) -> Option<f64> {
+        const STEP: f64 = 1e-5;
+        let values = self.layout.values(theta);
+        let baryons = if self.model.family().uses_baryons() {
+            Some(self.baryons_at_values(&values).ok()?)
+        } else {
+            None
+        };
+        let context = match &baryons {
+            Some(table) => self.halo_context(table),
+            None => HaloContext {
+                cosmology: self.cosmology,
+                baryons: &NoBaryons,
+                age_gyr: self.age_gyr,
+            },
+        };
+        let nudged = |k: usize| -> Option<(f64, f64)> {
+            let mut moved = theta.to_vec();
+            moved[k] += STEP;
+            let built = self
+                .model
+                .family()
+                .build(&self.layout.values(&moved), &context)
+                .ok()?;
+            let d = built.derived;
+            Some((
+                (d.m200_msun? / m200).log10() / STEP,
+                (d.c200? / c200).log10() / STEP,
+            ))
+        };
+        let (dm_di, dc_di) = nudged(i)?;
+        let (dm_dj, dc_dj) = nudged(j)?;
+        Some(dm_di * dc_dj - dm_dj * dc_di)
     }
 }
 
@@ -618,15 +741,19 @@ impl LogDensity for GalaxyModel {
         if !self.in_bounds(theta) {
             return f64::NEG_INFINITY;
         }
-        match self.evaluate(theta) {
-            Ok((evaluation, values)) => {
+        match self.evaluate_with_halo(&self.layout.values(theta)) {
+            Ok((evaluation, values, halo)) => {
                 derived.copy_from_slice(&values);
+                let log_prior = self.log_prior(theta, &values, &halo.derived);
+                if !log_prior.is_finite() {
+                    return f64::NEG_INFINITY;
+                }
                 let log_likelihood = if self.prior_only {
                     0.0
                 } else {
                     evaluation.log_likelihood
                 };
-                log_likelihood + self.log_prior(theta, &values)
+                log_likelihood + log_prior
             }
             Err(error) => {
                 let counter = match error {

@@ -1,14 +1,17 @@
 //! Priors, all user-editable and saved with a session.
 //!
-//! - Halo parameters: uniform within [`HaloBounds`] in the sampled coordinates (logarithms of
-//!   densities, radii, dispersions, V200 and c200).
-//! - Concentration–mass: the Dutton & Macciò (2014) relation, log10 c200 ~ N(μ(M200), 0.11 dex),
-//!   applied to the derived (M200, c200) of every halo model that has them: the NFW halo itself,
-//!   the SIDM halo's matched outer NFW halo, and the Burkert halo (c200 = r200 / r_−2). It is
-//!   applied as a *weight* on the sampled coordinates, without the Jacobian of the map from the
-//!   sampled (ρ0, σ0) to (M200, c200); for NFW, sampled in (log V200, log c200), the weight is an
-//!   exact conditional prior. The pseudo-isothermal profile has no radius where its log-slope is
-//!   −2, hence no c200 and no concentration prior.
+//! - The outer halo, for every model with a c200 (NFW, Einasto, the SIDM halo's matched NFW
+//!   halo, Burkert with c200 = r200 / r_−2): log10 V200 uniform within [`HaloBounds`] (so log
+//!   M200 = 3 log V200 + const is uniform too) and log10 c200 normal around the Dutton & Macciò
+//!   (2014) relation with 0.11 dex scatter, truncated to the c200 bounds (uniform in log c200
+//!   when the concentration–mass relation is switched off). NFW and Einasto sample (log V200,
+//!   log c200) directly. SIDM and Burkert sample their own coordinates (ρ0, σ0 or ρ0, r0), whose
+//!   bounds only truncate; the prior density there is the outer halo's times the Jacobian
+//!   |∂(log M200, log c200)/∂(log ρ0, log σ0)| (see [`crate::model`]). For SIDM,
+//!   [`SidmBranches`] says which of several cores matching one halo are admitted.
+//! - Other halo parameters: uniform within [`HaloBounds`] in their sampled coordinates. The
+//!   pseudo-isothermal profile has no radius where its log-slope is −2, hence no c200: it is
+//!   uniform in log ρ0 and log r_c.
 //! - Υ_disk, Υ_bulge: log-normal, medians 0.5 and 0.7, 0.1 dex (common practice at 3.6 μm).
 //! - Distance and inclination: Gaussian around the table's values with its errors (when the table
 //!   gives them), truncated to D > 0 and 5° < i ≤ 90°.
@@ -93,6 +96,32 @@ impl Default for HaloBounds {
     }
 }
 
+/// Which cores the SIDM prior admits when several match one outer halo (the halo-first
+/// problem's branches; see [`caldera_physics::sidm::baryon_free_fold_contrasts_ln`]).
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq, Serialize, Deserialize)]
+pub enum SidmBranches {
+    /// Only the lowest-density core of each outer halo: the core-expansion solution, the usual
+    /// physical choice. The derived (M200, c200, σ/m) then follow the stated prior exactly,
+    /// restricted to the halos whose core exists and lies within the sampled bounds.
+    #[default]
+    LowestDensity,
+    /// Every matching core, each with the full prior weight of its outer halo: a halo with n
+    /// matching cores counts n times, so the derived (M200, c200, σ/m) follow the stated prior
+    /// times n. The high-density cores are the gravothermal-collapse side of the solution.
+    All,
+}
+
+impl SidmBranches {
+    /// The name on the command line and in saved settings.
+    #[must_use]
+    pub fn key(self) -> &'static str {
+        match self {
+            Self::LowestDensity => "lowest",
+            Self::All => "all",
+        }
+    }
+}
+
 /// Every prior of a fit.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct Priors {
@@ -112,6 +141,9 @@ pub struct Priors {
     /// Hold the Einasto α at this value instead of sampling it.
     #[serde(default)]
     pub einasto_alpha_fixed: Option<f64>,
+    /// Which SIDM cores the prior admits when several match one outer halo.
+    #[serde(default)]
+    pub sidm_branches: SidmBranches,
 }
 
 impl Default for Priors {
@@ -128,6 +160,7 @@ impl Default for Priors {
             vary_inclination: true,
             error_floor_kms: 0.0,
             einasto_alpha_fixed: None,
+            sidm_branches: SidmBranches::default(),
         }
     }
 }

@@ -22,6 +22,9 @@ impl HaloFamily for BurkertFamily {
     fn parameters(&self) -> &'static [ParamId] {
         &[ParamId::Rho0, ParamId::R0]
     }
+    fn outer_halo_parameters(&self) -> Option<[ParamId; 2]> {
+        Some([ParamId::Rho0, ParamId::R0])
+    }
     fn build(
         &self,
         values: &ParamValues,

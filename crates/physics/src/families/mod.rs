@@ -91,6 +91,8 @@ pub struct HaloDerived {
     /// SIDM: the core's central density (Msun/kpc³) and dispersion (km/s).
     pub rho0_msun_kpc3: Option<f64>,
     pub sigma0_kms: Option<f64>,
+    /// SIDM: ln(ρ0/ρ1), the core's density contrast from its centre to r1.
+    pub core_contrast_ln: Option<f64>,
 }
 
 impl HaloDerived {
@@ -140,6 +142,13 @@ pub trait HaloFamily: Sync {
     /// Builds the halo from the physical values of [`HaloFamily::parameters`].
     fn build(&self, values: &ParamValues, context: &HaloContext)
     -> Result<BuiltHalo, PhysicsError>;
+
+    /// The two parameters that set the outer halo's (M200, c200) at fixed others, in the order
+    /// the Jacobian of that map is taken, for a family that is not parameterised by (V200, c200)
+    /// itself and has a c200. A fit carries the outer halo's prior over to these coordinates.
+    fn outer_halo_parameters(&self) -> Option<[ParamId; 2]> {
+        None
+    }
 
     /// The parameters a person sets by hand (the app's sliders); the same as
     /// [`HaloFamily::parameters`] unless the family says otherwise.

@@ -35,6 +35,7 @@ fn derived(halo: &SidmHalo, sigma_m_cm2_g: f64) -> HaloDerived {
         sigma_m_cm2_g: Some(sigma_m_cm2_g),
         rho0_msun_kpc3: Some(halo.rho0_msun_kpc3()),
         sigma0_kms: Some(halo.sigma0_kms()),
+        core_contrast_ln: Some(halo.core_contrast_ln()),
     }
 }
 
@@ -50,6 +51,9 @@ impl HaloFamily for SidmFamily {
     }
     fn parameters(&self) -> &'static [ParamId] {
         &[ParamId::Rho0, ParamId::Sigma0, ParamId::SigmaM]
+    }
+    fn outer_halo_parameters(&self) -> Option<[ParamId; 2]> {
+        Some([ParamId::Rho0, ParamId::Sigma0])
     }
     fn uses_baryons(&self) -> bool {
         true

@@ -94,6 +94,48 @@ fn universal_profile() -> &'static UniversalProfile {
     })
 }
 
+/// The folds of the baryon-free matching map, as core contrasts ln(ρ0/ρ1), in increasing order.
+///
+/// Without baryons, a core matched at ξ1 = e^t on the universal profile solves the halo-first
+/// problem when K + g(t) = 0, with K set by the NFW halo, σ/m and the age and g(t) universal
+/// (the discrepancy of [`candidate_at`] for a constant σ/m is K + g(t)). The extrema of g are
+/// the folds: between two of them the map from cores to outer halos is one-to-one (a sheet),
+/// and its orientation alternates from sheet to sheet. g rises to its first maximum, so the
+/// first sheet takes every value the later ones take: a core beyond the first fold always has a
+/// lower-density partner on the first sheet. ψ = ln(ρ0/ρ1) grows monotonically along the
+/// profile, so the folds are listed by ψ.
+pub fn baryon_free_fold_contrasts_ln() -> &'static [f64] {
+    static FOLDS: OnceLock<Vec<f64>> = OnceLock::new();
+    FOLDS.get_or_init(|| {
+        let universal = universal_profile();
+        let grid = &universal.grid;
+        // g(t) up to a constant: the discrepancy for any constant σ/m and NFW halo.
+        let g = |t: f64, psi: f64, x: f64| {
+            -0.5 * psi + t - x.ln() + 1.5 * (x * (1.0 + x) * (1.0 + x)).ln()
+        };
+        let mut folds = Vec::new();
+        let mut recent: Vec<(f64, f64)> = Vec::with_capacity(3);
+        for (i, (node, x)) in grid.nodes.iter().zip(&universal.x).enumerate() {
+            let Some(x) = *x else {
+                recent.clear();
+                continue;
+            };
+            let t = grid.t_start + i as f64 * grid.step_ln_xi;
+            let value = g(t, node.psi, x);
+            if let [(_, a), (psi_b, b)] = recent[..]
+                && (b - a) * (value - b) < 0.0
+            {
+                folds.push(psi_b);
+            }
+            recent.push((node.psi, value));
+            if recent.len() > 2 {
+                recent.remove(0);
+            }
+        }
+        folds
+    })
+}
+
 /// M(ξ1) / (4π ξ1³ ρ(ξ1)) on the baryon-free profile at t = ln ξ1, in its own units.
 fn universal_mass_ratio(t: f64, psi: f64, m: f64) -> f64 {
     m * psi.exp() / (3.0 * t).exp()

@@ -31,7 +31,7 @@ use crate::cross_section::{CrossSection, mean_relative_speed_kms};
 use crate::error::require_positive;
 use crate::halo::{HaloProfile, Nfw, VirialQuantities};
 
-pub use matching::invert_nfw_mass_ratio;
+pub use matching::{baryon_free_fold_contrasts_ln, invert_nfw_mass_ratio};
 
 use jeans::{GridSolution, JeansProblem};
 
@@ -91,6 +91,8 @@ pub struct SidmHalo {
     r1_kpc: f64,
     /// ln ξ at r1.
     ln_xi1: f64,
+    /// ln(ρ0/ρ1): how far the core's density falls before it meets the NFW halo.
+    core_contrast_ln: f64,
     grid: GridSolution,
     nfw: Nfw,
     virial: VirialQuantities,
@@ -172,6 +174,7 @@ pub fn core_first(
         mass_unit_msun: problem.mass_unit_msun,
         r1_kpc,
         ln_xi1: crossing.ln_xi,
+        core_contrast_ln: (rho0_msun_kpc3 / rho1).ln(),
         grid,
         nfw,
         virial,
@@ -220,6 +223,34 @@ pub fn halo_first_near(
             reason: "Newton's method from the previous solution did not converge".into(),
         })?;
     core_first(setup, rho0, sigma0)
+}
+
+/// Whether the core (ρ0 Msun/kpc³, σ0 km/s) with core contrast ln(ρ0/ρ1) `core_contrast_ln` is
+/// the lowest-density core matching its own outer NFW halo, given the determinant of the map
+/// from (ln ρ0, ln σ0) to (ln M200, ln c200) there, `outer_jacobian_det`.
+///
+/// The map's sheets alternate in orientation and are ordered by the core contrast (see
+/// [`baryon_free_fold_contrasts_ln`]); the first sheet, where every halo's lowest-density core
+/// lies, has a negative determinant. A core with a negative determinant and a contrast below
+/// the baryon-free second fold is on the first sheet. Beyond it, baryons may have stretched the
+/// first sheet that far or the core may lie on the third: the halo-first search decides.
+pub fn is_lowest_density_core(
+    setup: &SidmSetup,
+    (rho0_msun_kpc3, sigma0_kms): (f64, f64),
+    core_contrast_ln: f64,
+    outer_jacobian_det: f64,
+) -> bool {
+    if outer_jacobian_det >= 0.0 {
+        return false;
+    }
+    match baryon_free_fold_contrasts_ln().get(1) {
+        Some(&second) if core_contrast_ln >= second => {
+            let lowest = core_first(setup, rho0_msun_kpc3, sigma0_kms)
+                .and_then(|halo| halo_first(setup, halo.nfw(), Branch::LowestDensity));
+            lowest.is_ok_and(|h| (h.rho0_msun_kpc3 / rho0_msun_kpc3 - 1.0).abs() < 1e-6)
+        }
+        _ => true,
+    }
 }
 
 /// Every halo-first solution found, in order of increasing central density.
@@ -297,6 +328,13 @@ impl SidmHalo {
     #[must_use]
     pub fn sigma0_kms(&self) -> f64 {
         self.sigma0_kms
+    }
+
+    /// ln(ρ0/ρ1), the core's density contrast from its centre to r1: it orders the sheets of
+    /// the matching map (see [`baryon_free_fold_contrasts_ln`]).
+    #[must_use]
+    pub fn core_contrast_ln(&self) -> f64 {
+        self.core_contrast_ln
     }
 
     /// All derived quantities.
