@@ -20,10 +20,10 @@ use std::path::Path;
 use caldera_data::session::HaloModel;
 use caldera_data::{ReadOptions, read_table};
 use caldera_infer::model::Derived;
+use caldera_infer::model::GalaxyModel;
 use caldera_infer::priors::Priors;
 use caldera_infer::sampler::{RunConfig, Silent};
 use caldera_infer::{FitConfig, fit_galaxy};
-use caldera_infer::model::GalaxyModel;
 use caldera_physics::cosmology::DUTTON_MACCIO_SCATTER_DEX;
 use caldera_physics::{
     Branch, Cosmology, CrossSection, Nfw, ParamId, ParamValues, SidmSetup, sidm,

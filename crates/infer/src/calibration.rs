@@ -1,16 +1,16 @@
 //! Simulation-based calibration (Talts et al. 2018) of the SIDM fit.
 //!
-//! Each mock draws its true parameters from *exactly* the prior the sampler uses — uniform in
-//! the sampled coordinates within the bounds, times the concentration–mass weight, times the
-//! log-normal Υ prior, restricted to parameters for which the SIDM model exists — by rejection
-//! sampling; then it simulates a rotation curve on a fixed dwarf-like template with the same
+//! Each mock draws its true parameters from *exactly* the prior the fit states — the outer
+//! halo's prior (log-uniform V200, Dutton–Macciò c200), log-uniform σ/m, the log-normal Υ prior,
+//! restricted to halos whose lowest-density core exists within the sampled bounds — by a path
+//! independent of the sampler's (halo-first solves, [`draw_from_prior`]); then it simulates a rotation curve on a fixed dwarf-like template with the same
 //! forward model the fit uses, adds Gaussian noise, fits, and records where each true value falls
 //! in its posterior: inside the 68% and 95% intervals (coverage), and its rank among posterior
 //! draws (uniform when calibrated). Distance and inclination are held fixed in these mocks.
 
 use caldera_data::session::HaloModel;
 use caldera_data::{GalaxyMeta, GalaxyTable};
-use caldera_physics::ExponentialDisk;
+use caldera_physics::{Branch, CrossSection, ExponentialDisk, Nfw, ParamId, SidmSetup, sidm};
 use rand::{RngExt, SeedableRng};
 use rand_distr::{Distribution, StandardNormal};
 use rand_xoshiro::Xoshiro256PlusPlus;
@@ -19,8 +19,8 @@ use serde::{Deserialize, Serialize};
 
 use crate::InferError;
 use crate::fit::{FitConfig, fit_galaxy};
-use crate::model::{Derived, GalaxyModel};
-use crate::priors::{CrossSectionPrior, HaloBounds, Priors, ln_normal};
+use crate::model::GalaxyModel;
+use crate::priors::{CrossSectionPrior, HaloBounds, Priors, SidmBranches};
 use crate::sampler::{LogDensity, Silent};
 use crate::summary::quantile;
 
@@ -106,33 +106,73 @@ pub struct CoverageReport {
     pub parameters: Vec<ParameterCoverage>,
 }
 
-/// Draws true parameters from the fit's prior by rejection (see the module documentation).
+/// Draws true parameters from exactly the fit's prior, by a path independent of the sampler's:
+/// the outer halo (log V200 uniform, log c200 around the Dutton–Macciò relation or uniform,
+/// within bounds), σ/m and the nuisances from their priors; the core is the halo-first search's
+/// lowest-density core for that halo (the default [`SidmBranches`]), kept when it lies within
+/// the sampled bounds and the fit's prior admits it. None after many rejections, or when the
+/// priors admit every branch (not calibrated here).
 pub fn draw_from_prior(model: &GalaxyModel, rng: &mut Xoshiro256PlusPlus) -> Option<Vec<f64>> {
     let priors = model.priors;
-    let peak = ln_normal(0.0, 0.0, priors.concentration_scatter_dex);
-    for _ in 0..100_000 {
-        let theta = model.layout().draw(rng);
-        if !model.in_bounds(&theta) {
+    if priors.sidm_branches != SidmBranches::LowestDensity {
+        return None;
+    }
+    let cosmology = model.cosmology;
+    let layout = model.layout();
+    let halo_len = layout.halo_specs().len();
+    let sigma_m_spec = layout.spec(ParamId::SigmaM)?;
+    let (v_lo, v_hi) = priors.halo.log10_v200;
+    let (c_lo, c_hi) = priors.halo.log10_c200;
+    for _ in 0..20_000 {
+        let theta = layout.draw(rng);
+        let nuisances_inside = layout.specs()[halo_len..]
+            .iter()
+            .zip(&theta[halo_len..])
+            .all(|(spec, &x)| spec.contains(x));
+        if !nuisances_inside {
             continue;
         }
-        let Ok((_, derived)) = model.evaluate(&theta) else {
+        let mut values = layout.values(&theta);
+        let sigma_m = sigma_m_spec.physical(sigma_m_spec.draw(rng));
+        let v200 = 10f64.powf(v_lo + (v_hi - v_lo) * rng.random::<f64>());
+        let Ok(m200) = Nfw::from_v200_c200(v200, 10.0, &cosmology)
+            .and_then(|h| h.virial(&cosmology))
+            .map(|v| v.m200_msun)
+        else {
             continue;
         };
-        let (m200, c200) = (
-            derived[Derived::M200 as usize],
-            derived[Derived::C200 as usize],
-        );
-        let weight = if priors.concentration_mass {
-            if !(m200 > 0.0 && c200 > 0.0) {
-                continue;
-            }
-            let mu = model.cosmology.dutton_maccio_c200(m200).log10();
-            ln_normal(c200.log10(), mu, priors.concentration_scatter_dex) - peak
+        let log_c200 = if priors.concentration_mass {
+            let z: f64 = StandardNormal.sample(rng);
+            cosmology.dutton_maccio_c200(m200).log10() + priors.concentration_scatter_dex * z
         } else {
-            0.0
+            c_lo + (c_hi - c_lo) * rng.random::<f64>()
         };
-        if rng.random::<f64>().ln() < weight {
-            return Some(theta);
+        if !(c_lo..=c_hi).contains(&log_c200) {
+            continue;
+        }
+        let (Ok(baryons), Ok(cross_section), Ok(nfw)) = (
+            model.baryons_at_values(&values),
+            CrossSection::constant(sigma_m),
+            Nfw::from_v200_c200(v200, 10f64.powf(log_c200), &cosmology),
+        ) else {
+            continue;
+        };
+        let setup = SidmSetup {
+            cross_section,
+            age_gyr: model.age_gyr,
+            baryons: &baryons,
+            cosmology,
+        };
+        let Ok(core) = sidm::halo_first(&setup, &nfw, Branch::LowestDensity) else {
+            continue;
+        };
+        values.set(ParamId::Rho0, core.rho0_msun_kpc3());
+        values.set(ParamId::Sigma0, core.sigma0_kms());
+        values.set(ParamId::SigmaM, sigma_m);
+        let truth = model.theta_from_values(&values);
+        let mut derived = vec![0.0; model.n_derived()];
+        if model.in_bounds(&truth) && model.log_density(&truth, &mut derived).is_finite() {
+            return Some(truth);
         }
     }
     None
