@@ -6,12 +6,13 @@ use std::process::ExitCode;
 use anyhow::{Context, bail};
 use caldera_data::session::HaloModel;
 use caldera_data::{GalaxyTable, read_table, write_atomic};
-use caldera_infer::priors::{CrossSectionPrior, Priors};
+use caldera_infer::priors::{ConcentrationRelation, CrossSectionPrior, Priors, SidmBranches};
 use caldera_infer::sampler::{Control, Progress, RunConfig};
 use caldera_infer::summary::Interval;
 use caldera_infer::tempering::LadderConfig;
 use caldera_infer::{FitConfig, FitSummary, fit_galaxy};
 use caldera_physics::Cosmology;
+use caldera_physics::cosmology::DUTTON_MACCIO_SCATTER_DEX;
 use clap::{Args, ValueEnum};
 
 use crate::Verbosity;
@@ -33,6 +34,15 @@ pub enum SigmaScale {
     Log,
     /// Uniform in σ/m.
     Linear,
+}
+
+/// Which SIDM cores the prior admits (see `caldera_infer::priors::SidmBranches`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum BranchChoice {
+    /// The lowest-density core of each outer halo.
+    Lowest,
+    /// Every matching core.
+    All,
 }
 
 /// Arguments of `caldera fit`.
@@ -84,9 +94,23 @@ pub struct FitSettings {
     /// Upper bound of the σ/m prior, cm²/g.
     #[arg(long, default_value_t = 100.0, value_name = "CM2/G")]
     pub sigma_max: f64,
-    /// Do not apply the Dutton–Macciò concentration–mass prior.
+    /// Do not apply the concentration–mass prior (log c200 uniform within its bounds instead).
     #[arg(long)]
     pub no_concentration_prior: bool,
+    /// Mean concentration–mass relation: log10 c200 = A + B log10(M200 / 10¹² h⁻¹ Msun); A
+    /// (default Dutton & Macciò 2014).
+    #[arg(long, default_value_t = ConcentrationRelation::default().intercept, value_name = "A", allow_hyphen_values = true)]
+    pub concentration_intercept: f64,
+    /// The relation's slope B (default Dutton & Macciò 2014).
+    #[arg(long, default_value_t = ConcentrationRelation::default().slope, value_name = "B", allow_hyphen_values = true)]
+    pub concentration_slope: f64,
+    /// Scatter of log10 c200 about the relation, dex.
+    #[arg(long, default_value_t = DUTTON_MACCIO_SCATTER_DEX, value_name = "DEX")]
+    pub concentration_scatter: f64,
+    /// Which SIDM cores the prior admits when several match one outer halo: the lowest-density
+    /// one (the core-expansion solution) or every one (each with its halo's full prior weight).
+    #[arg(long, value_enum, default_value_t = BranchChoice::Lowest)]
+    pub sidm_branches: BranchChoice,
     /// Keep the distance fixed at the table's value.
     #[arg(long)]
     pub fixed_distance: bool,
@@ -134,6 +158,15 @@ impl FitSettings {
         {
             bail!("--age must be a positive number of Gyr, got {age}");
         }
+        if !(self.concentration_scatter.is_finite() && self.concentration_scatter > 0.0) {
+            bail!(
+                "--concentration-scatter must be a positive number of dex, got {}",
+                self.concentration_scatter
+            );
+        }
+        if !(self.concentration_intercept.is_finite() && self.concentration_slope.is_finite()) {
+            bail!("--concentration-intercept and --concentration-slope must be finite numbers");
+        }
         let priors = Priors {
             cross_section: CrossSectionPrior {
                 logarithmic: self.sigma_prior == SigmaScale::Log,
@@ -141,6 +174,15 @@ impl FitSettings {
                 max_cm2_g: self.sigma_max,
             },
             concentration_mass: !self.no_concentration_prior,
+            concentration_relation: ConcentrationRelation {
+                intercept: self.concentration_intercept,
+                slope: self.concentration_slope,
+            },
+            concentration_scatter_dex: self.concentration_scatter,
+            sidm_branches: match self.sidm_branches {
+                BranchChoice::Lowest => SidmBranches::LowestDensity,
+                BranchChoice::All => SidmBranches::All,
+            },
             vary_distance: !self.fixed_distance,
             vary_inclination: !self.fixed_inclination,
             error_floor_kms: self.error_floor,

@@ -143,7 +143,8 @@ pub fn draw_from_prior(model: &GalaxyModel, rng: &mut Xoshiro256PlusPlus) -> Opt
         };
         let log_c200 = if priors.concentration_mass {
             let z: f64 = StandardNormal.sample(rng);
-            cosmology.dutton_maccio_c200(m200).log10() + priors.concentration_scatter_dex * z
+            priors.concentration_relation.log10_c200(m200, &cosmology)
+                + priors.concentration_scatter_dex * z
         } else {
             c_lo + (c_hi - c_lo) * rng.random::<f64>()
         };

@@ -522,7 +522,10 @@ impl GalaxyModel {
             return 0.0;
         }
         let concentration = if self.priors.concentration_mass {
-            let mu = self.cosmology.dutton_maccio_c200(m200).log10();
+            let mu = self
+                .priors
+                .concentration_relation
+                .log10_c200(m200, &self.cosmology);
             ln_normal(c200.log10(), mu, self.priors.concentration_scatter_dex)
         } else {
             0.0

@@ -21,7 +21,7 @@
 //! Which coordinates carry these priors is decided in one place, the galaxy's
 //! [`crate::layout::Layout`] (built in [`crate::model::GalaxyModel::new`]).
 
-use caldera_physics::ParamId;
+use caldera_physics::{Cosmology, ParamId};
 use serde::{Deserialize, Serialize};
 
 /// How σ/m is sampled and bounded.
@@ -122,13 +122,42 @@ impl SidmBranches {
     }
 }
 
+/// The mean concentration–mass relation of the outer-halo prior,
+/// log10 c200 = intercept + slope · log10(M200 / (10¹² h⁻¹ Msun)). The default is Dutton &
+/// Macciò (2014) for Δ = 200c at z = 0.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct ConcentrationRelation {
+    pub intercept: f64,
+    pub slope: f64,
+}
+
+impl Default for ConcentrationRelation {
+    fn default() -> Self {
+        Self {
+            intercept: caldera_physics::cosmology::DUTTON_MACCIO_INTERCEPT,
+            slope: caldera_physics::cosmology::DUTTON_MACCIO_SLOPE,
+        }
+    }
+}
+
+impl ConcentrationRelation {
+    /// The relation's median log10 c200 at `m200_msun`.
+    #[must_use]
+    pub fn log10_c200(&self, m200_msun: f64, cosmology: &Cosmology) -> f64 {
+        cosmology.log10_c200_power_law(m200_msun, self.intercept, self.slope)
+    }
+}
+
 /// Every prior of a fit.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct Priors {
     pub halo: HaloBounds,
     pub cross_section: CrossSectionPrior,
-    /// Apply the Dutton–Macciò concentration–mass prior.
+    /// Apply the concentration–mass prior (else log c200 is uniform within its bounds).
     pub concentration_mass: bool,
+    /// Its mean relation (Dutton & Macciò 2014 by default) and scatter in log10 c200, dex.
+    #[serde(default)]
+    pub concentration_relation: ConcentrationRelation,
     pub concentration_scatter_dex: f64,
     pub upsilon_disk_median: f64,
     pub upsilon_bulge_median: f64,
@@ -152,6 +181,7 @@ impl Default for Priors {
             halo: HaloBounds::default(),
             cross_section: CrossSectionPrior::default(),
             concentration_mass: true,
+            concentration_relation: ConcentrationRelation::default(),
             concentration_scatter_dex: caldera_physics::cosmology::DUTTON_MACCIO_SCATTER_DEX,
             upsilon_disk_median: 0.5,
             upsilon_bulge_median: 0.7,

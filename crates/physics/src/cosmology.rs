@@ -76,10 +76,26 @@ impl Cosmology {
     /// [`DUTTON_MACCIO_SCATTER_DEX`].
     #[must_use]
     pub fn dutton_maccio_c200(&self, m200_msun: f64) -> f64 {
+        10f64.powf(self.log10_c200_power_law(
+            m200_msun,
+            DUTTON_MACCIO_INTERCEPT,
+            DUTTON_MACCIO_SLOPE,
+        ))
+    }
+
+    /// log10 c200 of a power-law concentration–mass relation,
+    /// log10 c200 = `intercept` + `slope` · log10(M200 / (10¹² h⁻¹ Msun)).
+    #[must_use]
+    pub fn log10_c200_power_law(&self, m200_msun: f64, intercept: f64, slope: f64) -> f64 {
         let pivot = 1e12 / self.little_h();
-        10f64.powf(0.905 - 0.101 * (m200_msun / pivot).log10())
+        intercept + slope * (m200_msun / pivot).log10()
     }
 }
+
+/// Intercept and slope of the Dutton & Macciò (2014) relation for Δ = 200c at z = 0 (see
+/// [`Cosmology::dutton_maccio_c200`]).
+pub const DUTTON_MACCIO_INTERCEPT: f64 = 0.905;
+pub const DUTTON_MACCIO_SLOPE: f64 = -0.101;
 
 /// Scatter of log10 c200 about the Dutton & Macciò (2014) relation, dex.
 pub const DUTTON_MACCIO_SCATTER_DEX: f64 = 0.11;
