@@ -457,10 +457,18 @@ impl CalderaApp {
                 ui.label(format!("converged (τ = {:.0} steps)", result.tau_max));
             } else {
                 ui.label(
-                    RichText::new("NOT converged: do not trust these intervals")
-                        .color(theme::ERROR),
+                    RichText::new(format!(
+                        "NOT converged (τ = {:.0} steps after {} steps; 50 τ needed): do not trust these intervals",
+                        result.tau_max, result.n_steps
+                    ))
+                    .color(theme::ERROR),
+                )
+                .on_hover_text(
+                    "The chain stopped at the step cap before it was 50 autocorrelation times long. A catalogue run can raise the cap: caldera fit TABLE --max-steps N",
                 );
             }
+            ui.label(RichText::new(prior_summary(&self.session.fit.priors, settings.model)).weak())
+                .on_hover_text(PRIOR_HOVER);
             if ui.button("Use best fit").clicked() {
                 commands.push(Command::UseBestFit);
             }
@@ -1017,3 +1025,48 @@ fn histogram_ui(ui: &mut egui::Ui, name: &str, values: &[f64]) {
             );
         });
 }
+
+/// One line naming the fit's priors on the halo.
+fn prior_summary(priors: &caldera_infer::priors::Priors, model: HaloModel) -> String {
+    let (v_lo, v_hi) = priors.halo.log10_v200;
+    let outer = if priors.concentration_mass {
+        format!(
+            "V200 log-uniform {:.0}–{:.0} km/s, log c200 ~ Dutton–Macciò ± {} dex",
+            10f64.powf(v_lo),
+            10f64.powf(v_hi),
+            priors.concentration_scatter_dex
+        )
+    } else {
+        format!(
+            "V200 and c200 log-uniform ({:.0}–{:.0} km/s)",
+            10f64.powf(v_lo),
+            10f64.powf(v_hi)
+        )
+    };
+    match model {
+        HaloModel::Sidm => {
+            let xs = priors.cross_section;
+            format!(
+                "Prior: {outer}; σ/m {} {}–{} cm²/g; {} core",
+                if xs.logarithmic {
+                    "log-uniform"
+                } else {
+                    "uniform"
+                },
+                xs.min_cm2_g,
+                xs.max_cm2_g,
+                match priors.sidm_branches {
+                    caldera_infer::priors::SidmBranches::LowestDensity => "lowest-density",
+                    caldera_infer::priors::SidmBranches::All => "every matching",
+                }
+            )
+        }
+        HaloModel::PseudoIsothermal => {
+            "Prior: log ρ0 and log r_c uniform (no c200, no concentration prior)".to_string()
+        }
+        _ => format!("Prior: {outer}"),
+    }
+}
+
+/// What the prior line means, on hover.
+const PRIOR_HOVER: &str = "The outer halo's prior is the same for NFW, Einasto, Burkert and SIDM: log-uniform V200 and log c200 normal around the Dutton & Macciò (2014) relation. SIDM and Burkert halos are sampled in their own coordinates and carry this prior there by the Jacobian. When several SIDM cores match one outer halo, the prior admits the lowest-density one (the core-expansion solution). Υ's, distance and inclination have their own priors (README).";
