@@ -1031,16 +1031,16 @@ fn prior_summary(priors: &caldera_infer::priors::Priors, model: HaloModel) -> St
     let (v_lo, v_hi) = priors.halo.log10_v200;
     let outer = if priors.concentration_mass {
         format!(
-            "V200 log-uniform {:.0}–{:.0} km/s, log c200 ~ Dutton–Macciò ± {} dex",
-            10f64.powf(v_lo),
-            10f64.powf(v_hi),
+            "V200 log-uniform {}–{} km/s, log c200 ~ Dutton–Macciò ± {} dex",
+            crate::format::significant(10f64.powf(v_lo), 2),
+            crate::format::significant(10f64.powf(v_hi), 2),
             priors.concentration_scatter_dex
         )
     } else {
         format!(
-            "V200 and c200 log-uniform ({:.0}–{:.0} km/s)",
-            10f64.powf(v_lo),
-            10f64.powf(v_hi)
+            "V200 and c200 log-uniform (V200 {}–{} km/s)",
+            crate::format::significant(10f64.powf(v_lo), 2),
+            crate::format::significant(10f64.powf(v_hi), 2)
         )
     };
     match model {
