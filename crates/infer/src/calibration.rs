@@ -170,6 +170,8 @@ pub fn draw_from_prior(model: &GalaxyModel, rng: &mut Xoshiro256PlusPlus) -> Opt
         values.set(ParamId::Rho0, core.rho0_msun_kpc3());
         values.set(ParamId::Sigma0, core.sigma0_kms());
         values.set(ParamId::SigmaM, sigma_m);
+        values.set(ParamId::V200, v200);
+        values.set(ParamId::C200, 10f64.powf(log_c200));
         let truth = model.theta_from_values(&values);
         let mut derived = vec![0.0; model.n_derived()];
         if model.in_bounds(&truth) && model.log_density(&truth, &mut derived).is_finite() {

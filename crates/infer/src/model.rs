@@ -8,6 +8,7 @@
 //! V_model² = V_halo²(r) + V_b²(r), with V_b² signed. A model that cannot be built (no isothermal
 //! core, no NFW match) has likelihood zero: ln p = −∞, and the reason is counted.
 
+use std::sync::Mutex;
 use std::sync::atomic::{AtomicU64, Ordering};
 
 use caldera_data::GalaxyTable;
@@ -15,13 +16,13 @@ use caldera_data::session::HaloModel;
 use caldera_physics::units::DEFAULT_HALO_AGE_GYR;
 use caldera_physics::{
     BaryonComponent, BaryonRows, BaryonTable, BuiltHalo, Cosmology, CrossSection, HaloContext,
-    HaloDerived, NoBaryons, ParamId, ParamValues, PhysicsError, SidmSetup, Transform,
+    HaloDerived, Nfw, NoBaryons, ParamId, ParamValues, PhysicsError, SidmSetup, Transform,
 };
 use serde::{Deserialize, Serialize};
 
 use crate::InferError;
 use crate::layout::{Layout, ParamSpec};
-use crate::priors::{Priors, SidmBranches, ln_normal};
+use crate::priors::{Priors, SidmBranches, SidmCoordinates, ln_normal};
 use crate::sampler::LogDensity;
 
 /// Names of the derived quantities recorded with every sample, with units.
@@ -95,6 +96,9 @@ pub struct GalaxyModel {
     /// θ indices of the two coordinates that set the outer halo's (M200, c200), when the family
     /// is not sampled in (log V200, log c200) itself (see [`GalaxyModel::outer_halo_log_prior`]).
     outer_halo: Option<[usize; 2]>,
+    /// SIDM sampled in its outer halo: the last core found, where the next search starts (it
+    /// changes the cost of finding the lowest-density core, not the core found).
+    core_guess: Option<Mutex<Option<(f64, f64)>>>,
     distance_mpc: Option<(f64, f64)>,
     inclination_deg: Option<(f64, f64)>,
     pub failures: FailureCounts,
@@ -128,7 +132,12 @@ fn galaxy_layout(
 ) -> Result<(Layout, Option<(f64, f64)>, Option<(f64, f64)>), InferError> {
     let mut specs = Vec::new();
     let mut fixed = ParamValues::default();
-    for &id in model.family().parameters() {
+    let sampled: &[ParamId] = if samples_outer_halo(model, priors) {
+        &[ParamId::V200, ParamId::C200, ParamId::SigmaM]
+    } else {
+        model.family().parameters()
+    };
+    for &id in sampled {
         match id {
             ParamId::SigmaM => {
                 let xs = priors.cross_section;
@@ -225,6 +234,15 @@ fn galaxy_layout(
     ))
 }
 
+/// Whether the SIDM fit samples its outer halo (log V200, log c200) and σ/m, finding the core
+/// for each ([`SidmCoordinates::Halo`]); only for the lowest-density branch, which makes the core
+/// a function of the outer halo.
+fn samples_outer_halo(model: HaloModel, priors: &Priors) -> bool {
+    model == HaloModel::Sidm
+        && priors.sidm_coordinates == SidmCoordinates::Halo
+        && priors.sidm_branches == SidmBranches::LowestDensity
+}
+
 impl GalaxyModel {
     /// Sets up the posterior of `model` for `table`.
     pub fn new(
@@ -259,6 +277,7 @@ impl GalaxyModel {
             rows,
             has_bulge: table.v_bulge_kms.is_some(),
             outer_halo,
+            core_guess: samples_outer_halo(model, &priors).then(|| Mutex::new(None)),
             distance_mpc,
             inclination_deg,
             failures: FailureCounts::default(),
@@ -464,7 +483,14 @@ impl GalaxyModel {
         let family = self.model.family();
         let built = if family.uses_baryons() {
             let baryons = self.rows.mass_model(distance_factor, v_baryon2_kms2)?;
-            family.build(values, &self.halo_context(&baryons))?
+            let context = self.halo_context(&baryons);
+            match &self.core_guess {
+                Some(guess) if values.get(ParamId::Rho0).is_none() => family.build(
+                    &self.with_lowest_density_core(values, &context, guess)?,
+                    &context,
+                )?,
+                _ => family.build(values, &context)?,
+            }
         } else {
             let context = HaloContext {
                 cosmology: self.cosmology,
@@ -487,10 +513,56 @@ impl GalaxyModel {
         Ok(built)
     }
 
+    /// `values` (σ/m and the outer halo's V200, c200) completed with the lowest-density SIDM core
+    /// that matches them, found from the last core in `guess`.
+    fn with_lowest_density_core(
+        &self,
+        values: &ParamValues,
+        context: &HaloContext,
+        guess: &Mutex<Option<(f64, f64)>>,
+    ) -> Result<ParamValues, PhysicsError> {
+        let setup = SidmSetup {
+            cross_section: CrossSection::constant(values.require(ParamId::SigmaM)?)?,
+            age_gyr: context.age_gyr,
+            baryons: context.baryons,
+            cosmology: context.cosmology,
+        };
+        let nfw = Nfw::from_v200_c200(
+            values.require(ParamId::V200)?,
+            values.require(ParamId::C200)?,
+            &context.cosmology,
+        )?;
+        // A poisoned lock only loses the guess: the search then starts from scratch.
+        let start = guess.lock().map_or(None, |g| *g);
+        let core = caldera_physics::sidm::lowest_density_core(&setup, &nfw, start)?;
+        let found = (core.rho0_msun_kpc3(), core.sigma0_kms());
+        if let Ok(mut g) = guess.lock() {
+            *g = Some(found);
+        }
+        let mut completed = *values;
+        completed.set(ParamId::Rho0, found.0);
+        completed.set(ParamId::Sigma0, found.1);
+        Ok(completed)
+    }
+
     /// ln prior at θ (constants dropped): the layout's priors on the sampled coordinates plus
     /// the outer halo's ([`GalaxyModel::outer_halo_log_prior`]). `halo` is the halo built at θ.
     fn log_prior(&self, theta: &[f64], derived: &[f64], halo: &HaloDerived) -> f64 {
+        if self.core_guess.is_some() && !self.core_within_bounds(halo) {
+            return f64::NEG_INFINITY;
+        }
         self.layout.ln_prior(theta) + self.outer_halo_log_prior(theta, derived, halo)
+    }
+
+    /// Whether an SIDM core lies within the (ρ0, σ0) bounds. Sampling the outer halo, these
+    /// bounds still truncate the prior, so that it is the same whichever coordinates are sampled.
+    fn core_within_bounds(&self, halo: &HaloDerived) -> bool {
+        let bounds = &self.priors.halo;
+        let inside = |value: Option<f64>, (lo, hi): (f64, f64)| {
+            value.is_some_and(|v| v > 0.0 && (lo..=hi).contains(&v.log10()))
+        };
+        inside(halo.rho0_msun_kpc3, bounds.log10_rho0)
+            && inside(halo.sigma0_kms, bounds.log10_sigma0)
     }
 
     /// The outer halo's prior (log V200 uniform within bounds, log c200 normal around the

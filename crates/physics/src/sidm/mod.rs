@@ -253,6 +253,46 @@ pub fn is_lowest_density_core(
     }
 }
 
+/// det ∂(ln M200, ln c200)/∂(ln ρ0, ln σ0) of the core-first map at (ρ0 Msun/kpc³, σ0 km/s), by
+/// forward differences; None when a nudged core has no NFW match.
+pub fn outer_halo_jacobian_det(setup: &SidmSetup, (rho0, sigma0): (f64, f64)) -> Option<f64> {
+    const STEP: f64 = 1e-6;
+    let outer = |rho0: f64, sigma0: f64| -> Option<(f64, f64)> {
+        let v = core_first(setup, rho0, sigma0).ok()?.virial;
+        Some((v.m200_msun.ln(), v.c200.ln()))
+    };
+    let base = outer(rho0, sigma0)?;
+    let by_rho0 = outer(rho0 * STEP.exp(), sigma0)?;
+    let by_sigma0 = outer(rho0, sigma0 * STEP.exp())?;
+    let (dm_dr, dc_dr) = ((by_rho0.0 - base.0) / STEP, (by_rho0.1 - base.1) / STEP);
+    let (dm_ds, dc_ds) = ((by_sigma0.0 - base.0) / STEP, (by_sigma0.1 - base.1) / STEP);
+    Some(dm_dr * dc_ds - dm_ds * dc_dr)
+}
+
+/// The lowest-density core matching `nfw` (the same answer as [`halo_first`] with
+/// [`Branch::LowestDensity`]), found cheaply when `guess` = (ρ0, σ0) is a nearby core: Newton's
+/// method from the guess, its root kept when [`is_lowest_density_core`] recognises it from the
+/// core alone (first sheet, contrast below the baryon-free second fold); otherwise the full
+/// search. The guess changes the cost, not the answer.
+pub fn lowest_density_core(
+    setup: &SidmSetup,
+    nfw: &Nfw,
+    guess: Option<(f64, f64)>,
+) -> Result<SidmHalo, PhysicsError> {
+    validate_setup(setup)?;
+    let second_fold = baryon_free_fold_contrasts_ln().get(1).copied();
+    if let Some((rho0, sigma0)) = guess.filter(|g| g.0 > 0.0 && g.1 > 0.0)
+        && let Some(root) = matching::polish(setup, nfw, (rho0, sigma0))
+        && let Ok(mut halo) = core_first(setup, root.0, root.1)
+        && second_fold.is_none_or(|fold| halo.core_contrast_ln < fold)
+        && outer_halo_jacobian_det(setup, root).is_some_and(|det| det < 0.0)
+    {
+        halo.branch = Some(0);
+        return Ok(halo);
+    }
+    halo_first(setup, nfw, Branch::LowestDensity)
+}
+
 /// Every halo-first solution found, in order of increasing central density.
 pub fn halo_first_all(setup: &SidmSetup, nfw: &Nfw) -> Result<Vec<SidmHalo>, PhysicsError> {
     halo_first_all_with(setup, nfw, Search::Fast)
