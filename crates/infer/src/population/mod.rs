@@ -176,9 +176,23 @@ pub fn load_folder_posteriors(
                 InferError::Config(format!("{}: no column '{name}'", chain_path.display()))
             })
         };
+        // A fit sampled in the core has log10 σ0 as a column; one sampled in the outer halo
+        // (`SidmCoordinates::Halo`) records σ0 through the derived ⟨v_rel⟩ = 4σ0/√π.
+        let log10_sigma0: Vec<f64> = match column(ParamId::Sigma0) {
+            Ok(values) => values.to_vec(),
+            Err(missing) => chain
+                .column(crate::model::DERIVED_NAMES[crate::model::Derived::VRel as usize])
+                .ok_or(missing)?
+                .iter()
+                .map(|&v| {
+                    caldera_physics::cross_section::dispersion_from_mean_relative_speed_kms(v)
+                        .log10()
+                })
+                .collect(),
+        };
         out.posteriors.push(GalaxyPosterior::from_chain(
             &summary.galaxy,
-            column(ParamId::Sigma0)?,
+            &log10_sigma0,
             column(ParamId::SigmaM)?,
             prior,
             max_samples,
