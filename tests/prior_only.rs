@@ -18,7 +18,7 @@
 use std::path::Path;
 
 use caldera_data::session::HaloModel;
-use caldera_data::{ReadOptions, read_table};
+use caldera_data::{GalaxyTable, ReadOptions, read_table};
 use caldera_infer::model::Derived;
 use caldera_infer::model::GalaxyModel;
 use caldera_infer::priors::Priors;
@@ -65,19 +65,29 @@ fn normal_cdf(z: f64) -> f64 {
     }
 }
 
-#[test]
-fn nfw_prior_only_draws_follow_the_stated_prior() {
+/// Kiln D03, the demo dwarf both prior-only runs use.
+fn demo_dwarf() -> GalaxyTable {
     let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("demo_galaxies/kiln_d03.ecsv");
-    let table = read_table(&path, &ReadOptions::default()).expect("the demo table");
-    let config = FitConfig {
+    read_table(&path, &ReadOptions::default()).expect("the demo table")
+}
+
+/// The default fit configuration, sampling the prior alone for exactly `steps` steps.
+fn prior_only_config(steps: usize) -> FitConfig {
+    FitConfig {
         prior_only: true,
         run: RunConfig {
-            min_steps: 14_000,
-            max_steps: 14_000,
+            min_steps: steps,
+            max_steps: steps,
             ..RunConfig::default()
         },
         ..FitConfig::default()
-    };
+    }
+}
+
+#[test]
+fn nfw_prior_only_draws_follow_the_stated_prior() {
+    let table = demo_dwarf();
+    let config = prior_only_config(14_000);
     let result = fit_galaxy(&table, HaloModel::Nfw, &config, &mut Silent).expect("runs");
     assert!(result.summary.prior_only);
     let tau = result.summary.tau_max.ceil().max(1.0) as usize;
@@ -92,9 +102,7 @@ fn nfw_prior_only_draws_follow_the_stated_prior() {
         // log M200 − 3 log V200 is the same constant for every halo (M200 = V200³ / (10 G H0)).
         offset = m200.log10() - 3.0 * v200.log10();
         log_m200.push(m200.log10());
-        z.push(
-            (c200.log10() - cosmology.dutton_maccio_c200(m200).log10()) / DUTTON_MACCIO_SCATTER_DEX,
-        );
+        z.push(standardised(&cosmology, m200, c200));
     }
     let n = log_m200.len();
     assert!(n > 15_000, "{n} draws");
@@ -201,17 +209,8 @@ fn reference_draw(model: &GalaxyModel, seed: u64) -> Option<Draw> {
 
 #[test]
 fn sidm_prior_only_draws_follow_the_stated_prior() {
-    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("demo_galaxies/kiln_d03.ecsv");
-    let table = read_table(&path, &ReadOptions::default()).expect("the demo table");
-    let config = FitConfig {
-        prior_only: true,
-        run: RunConfig {
-            min_steps: 30_000,
-            max_steps: 30_000,
-            ..RunConfig::default()
-        },
-        ..FitConfig::default()
-    };
+    let table = demo_dwarf();
+    let config = prior_only_config(30_000);
     let result = fit_galaxy(&table, HaloModel::Sidm, &config, &mut Silent).expect("runs");
     let cosmology = Cosmology::default();
     let tau = result.summary.tau_max.ceil().max(1.0) as usize;

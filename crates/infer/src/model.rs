@@ -558,9 +558,8 @@ impl GalaxyModel {
     /// bounds still truncate the prior, so that it is the same whichever coordinates are sampled.
     fn core_within_bounds(&self, halo: &HaloDerived) -> bool {
         let bounds = &self.priors.halo;
-        let inside = |value: Option<f64>, (lo, hi): (f64, f64)| {
-            value.is_some_and(|v| v > 0.0 && (lo..=hi).contains(&v.log10()))
-        };
+        let inside =
+            |value: Option<f64>, range| value.is_some_and(|v| v > 0.0 && log10_within(v, range));
         inside(halo.rho0_msun_kpc3, bounds.log10_rho0)
             && inside(halo.sigma0_kms, bounds.log10_sigma0)
     }
@@ -606,62 +605,18 @@ impl GalaxyModel {
             return concentration;
         };
         let bounds = &self.priors.halo;
-        let inside = |x: f64, (lo, hi): (f64, f64)| x >= lo && x <= hi;
-        if !(inside(derived[Derived::V200 as usize].log10(), bounds.log10_v200)
-            && inside(c200.log10(), bounds.log10_c200))
+        if !(log10_within(derived[Derived::V200 as usize], bounds.log10_v200)
+            && log10_within(c200, bounds.log10_c200))
         {
             return f64::NEG_INFINITY;
         }
-        let Some(det) = self.outer_halo_jacobian(theta, indices, m200, c200) else {
-            return f64::NEG_INFINITY;
-        };
-        if let Some(contrast) = halo.core_contrast_ln
-            && self.priors.sidm_branches == SidmBranches::LowestDensity
-            && !self.is_lowest_density_core(theta, contrast, det)
-        {
-            return f64::NEG_INFINITY;
-        }
-        concentration + det.abs().ln()
-    }
-
-    /// [`caldera_physics::sidm::is_lowest_density_core`] for the SIDM core at θ.
-    fn is_lowest_density_core(&self, theta: &[f64], contrast: f64, det: f64) -> bool {
-        let values = self.layout.values(theta);
-        let (Some(rho0), Some(sigma0), Some(sigma_m)) = (
-            values.get(ParamId::Rho0),
-            values.get(ParamId::Sigma0),
-            values.get(ParamId::SigmaM),
-        ) else {
-            return false;
-        };
-        let (Ok(baryons), Ok(cross_section)) = (
-            self.baryons_at_values(&values),
-            CrossSection::constant(sigma_m),
-        ) else {
-            return false;
-        };
-        let setup = SidmSetup {
-            cross_section,
-            age_gyr: self.age_gyr,
-            baryons: &baryons,
-            cosmology: self.cosmology,
-        };
-        caldera_physics::sidm::is_lowest_density_core(&setup, (rho0, sigma0), contrast, det)
-    }
-
-    /// det ∂(log10 M200, log10 c200)/∂(θ[i], θ[j]) at θ (both coordinates are base-10
-    /// logarithms), by forward differences; None when a nudged halo cannot be built.
-    fn outer_halo_jacobian(
-        &self,
-        theta: &[f64],
-        [i, j]: [usize; 2],
-        m200: f64,
-        c200: f64,
-    ) -> Option<f64> {
-        const STEP: f64 = 1e-5;
+        // One baryonic mass model at θ's nuisances for the nudged builds and the branch test.
         let values = self.layout.values(theta);
         let baryons = if self.model.family().uses_baryons() {
-            Some(self.baryons_at_values(&values).ok()?)
+            match self.baryons_at_values(&values) {
+                Ok(table) => Some(table),
+                Err(_) => return f64::NEG_INFINITY,
+            }
         } else {
             None
         };
@@ -673,13 +628,59 @@ impl GalaxyModel {
                 age_gyr: self.age_gyr,
             },
         };
+        let Some(det) = self.outer_halo_jacobian(theta, indices, (m200, c200), &context) else {
+            return f64::NEG_INFINITY;
+        };
+        if let Some(contrast) = halo.core_contrast_ln
+            && self.priors.sidm_branches == SidmBranches::LowestDensity
+            && !Self::is_lowest_density_core(&values, contrast, det, &context)
+        {
+            return f64::NEG_INFINITY;
+        }
+        concentration + det.abs().ln()
+    }
+
+    /// [`caldera_physics::sidm::is_lowest_density_core`] for the SIDM core of `values`.
+    fn is_lowest_density_core(
+        values: &ParamValues,
+        contrast: f64,
+        det: f64,
+        context: &HaloContext,
+    ) -> bool {
+        let (Some(rho0), Some(sigma0), Some(Ok(cross_section))) = (
+            values.get(ParamId::Rho0),
+            values.get(ParamId::Sigma0),
+            values.get(ParamId::SigmaM).map(CrossSection::constant),
+        ) else {
+            return false;
+        };
+        let setup = SidmSetup {
+            cross_section,
+            age_gyr: context.age_gyr,
+            baryons: context.baryons,
+            cosmology: context.cosmology,
+        };
+        caldera_physics::sidm::is_lowest_density_core(&setup, (rho0, sigma0), contrast, det)
+    }
+
+    /// det ∂(log10 M200, log10 c200)/∂(θ[i], θ[j]) at θ (both coordinates are base-10
+    /// logarithms), by forward differences of the family's build in `context`, from the halo's
+    /// own (M200 Msun, c200); None when a nudged halo cannot be built.
+    fn outer_halo_jacobian(
+        &self,
+        theta: &[f64],
+        [i, j]: [usize; 2],
+        (m200, c200): (f64, f64),
+        context: &HaloContext,
+    ) -> Option<f64> {
+        const STEP: f64 = 1e-5;
         let nudged = |k: usize| -> Option<(f64, f64)> {
             let mut moved = theta.to_vec();
             moved[k] += STEP;
             let built = self
                 .model
                 .family()
-                .build(&self.layout.values(&moved), &context)
+                .build(&self.layout.values(&moved), context)
                 .ok()?;
             let d = built.derived;
             Some((
@@ -691,6 +692,11 @@ impl GalaxyModel {
         let (dm_dj, dc_dj) = nudged(j)?;
         Some(dm_di * dc_dj - dm_dj * dc_di)
     }
+}
+
+/// Whether log10 `value` lies within the (lower, upper) bounds `range`.
+fn log10_within(value: f64, (lower, upper): (f64, f64)) -> bool {
+    (lower..=upper).contains(&value.log10())
 }
 
 /// The model's pieces for a figure: data and baryonic components at the (rescaled) data radii,

@@ -243,25 +243,72 @@ pub fn is_lowest_density_core(
     if outer_jacobian_det >= 0.0 {
         return false;
     }
-    match baryon_free_fold_contrasts_ln().get(1) {
-        Some(&second) if core_contrast_ln >= second => {
-            let lowest = core_first(setup, rho0_msun_kpc3, sigma0_kms)
-                .and_then(|halo| halo_first(setup, halo.nfw(), Branch::LowestDensity));
-            lowest.is_ok_and(|h| (h.rho0_msun_kpc3 / rho0_msun_kpc3 - 1.0).abs() < 1e-6)
-        }
-        _ => true,
+    if before_second_fold(core_contrast_ln) {
+        return true;
     }
+    let lowest = core_first(setup, rho0_msun_kpc3, sigma0_kms)
+        .and_then(|halo| halo_first(setup, halo.nfw(), Branch::LowestDensity));
+    lowest.is_ok_and(|h| (h.rho0_msun_kpc3 / rho0_msun_kpc3 - 1.0).abs() < 1e-6)
+}
+
+/// Whether a core contrast ln(ρ0/ρ1) lies below the baryon-free map's second fold, where a core
+/// with a negative outer-halo Jacobian is on the first sheet ([`is_lowest_density_core`]).
+fn before_second_fold(core_contrast_ln: f64) -> bool {
+    baryon_free_fold_contrasts_ln()
+        .get(1)
+        .is_none_or(|&second| core_contrast_ln < second)
+}
+
+/// The outer NFW halo's (M200 Msun, c200) that the core (ρ0, σ0) matches: [`core_first`]
+/// without storing the core's profile, for derivatives of the map.
+fn outer_halo_of_core(
+    setup: &SidmSetup,
+    rho0_msun_kpc3: f64,
+    sigma0_kms: f64,
+) -> Result<(f64, f64), PhysicsError> {
+    let rho1 = setup
+        .cross_section
+        .rate_density_msun_kpc3(sigma0_kms, setup.age_gyr);
+    if rho1 >= rho0_msun_kpc3 {
+        return Err(PhysicsError::NoCore {
+            rho0_msun_kpc3,
+            rho1_msun_kpc3: rho1,
+        });
+    }
+    let problem = JeansProblem::new(rho0_msun_kpc3, sigma0_kms, setup.baryons);
+    let crossing = problem
+        .integrate((rho0_msun_kpc3 / rho1).ln(), f64::INFINITY, None)?
+        .ok_or(PhysicsError::NoConvergence {
+            what: "isothermal Jeans integration",
+        })?;
+    let r1_kpc = problem.core_scale_kpc * crossing.ln_xi.exp();
+    let m1_msun = problem.mass_unit_msun * crossing.m;
+    let x = invert_nfw_mass_ratio(m1_msun / (4.0 * PI * r1_kpc.powi(3) * rho1), None)?;
+    let virial = Nfw::from_rho_s_r_s(rho1 * x * (1.0 + x) * (1.0 + x), r1_kpc / x)?
+        .virial(&setup.cosmology)?;
+    Ok((virial.m200_msun, virial.c200))
 }
 
 /// det ∂(ln M200, ln c200)/∂(ln ρ0, ln σ0) of the core-first map at (ρ0 Msun/kpc³, σ0 km/s), by
 /// forward differences; None when a nudged core has no NFW match.
-pub fn outer_halo_jacobian_det(setup: &SidmSetup, (rho0, sigma0): (f64, f64)) -> Option<f64> {
+pub fn outer_halo_jacobian_det(setup: &SidmSetup, core: (f64, f64)) -> Option<f64> {
+    let (m200, c200) = outer_halo_of_core(setup, core.0, core.1).ok()?;
+    outer_halo_jacobian_det_at(setup, core, (m200, c200))
+}
+
+/// [`outer_halo_jacobian_det`] when the core's own (M200 Msun, c200) are known (from its
+/// [`core_first`] solve): two more integrations instead of three.
+pub fn outer_halo_jacobian_det_at(
+    setup: &SidmSetup,
+    (rho0, sigma0): (f64, f64),
+    (m200, c200): (f64, f64),
+) -> Option<f64> {
     const STEP: f64 = 1e-6;
     let outer = |rho0: f64, sigma0: f64| -> Option<(f64, f64)> {
-        let v = core_first(setup, rho0, sigma0).ok()?.virial;
-        Some((v.m200_msun.ln(), v.c200.ln()))
+        let (m200, c200) = outer_halo_of_core(setup, rho0, sigma0).ok()?;
+        Some((m200.ln(), c200.ln()))
     };
-    let base = outer(rho0, sigma0)?;
+    let base = (m200.ln(), c200.ln());
     let by_rho0 = outer(rho0 * STEP.exp(), sigma0)?;
     let by_sigma0 = outer(rho0, sigma0 * STEP.exp())?;
     let (dm_dr, dc_dr) = ((by_rho0.0 - base.0) / STEP, (by_rho0.1 - base.1) / STEP);
@@ -280,12 +327,12 @@ pub fn lowest_density_core(
     guess: Option<(f64, f64)>,
 ) -> Result<SidmHalo, PhysicsError> {
     validate_setup(setup)?;
-    let second_fold = baryon_free_fold_contrasts_ln().get(1).copied();
     if let Some((rho0, sigma0)) = guess.filter(|g| g.0 > 0.0 && g.1 > 0.0)
         && let Some(root) = matching::polish(setup, nfw, (rho0, sigma0))
         && let Ok(mut halo) = core_first(setup, root.0, root.1)
-        && second_fold.is_none_or(|fold| halo.core_contrast_ln < fold)
-        && outer_halo_jacobian_det(setup, root).is_some_and(|det| det < 0.0)
+        && before_second_fold(halo.core_contrast_ln)
+        && outer_halo_jacobian_det_at(setup, root, (halo.virial.m200_msun, halo.virial.c200))
+            .is_some_and(|det| det < 0.0)
     {
         halo.branch = Some(0);
         return Ok(halo);
