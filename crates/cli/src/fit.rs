@@ -164,6 +164,10 @@ pub struct FitSettings {
     /// imply (σ/m, V200, c200, M200, …), to check them before trusting a fit.
     #[arg(long)]
     pub prior_only: bool,
+    /// Sample the SIDM coordinates as they are, without first straightening the posterior along
+    /// σ/m (mixes slower on spirals; for comparison and diagnosis).
+    #[arg(long)]
+    pub no_straighten: bool,
 }
 
 impl FitSettings {
@@ -229,6 +233,7 @@ impl FitSettings {
             cosmology,
             age_gyr: self.age,
             prior_only: self.prior_only,
+            straighten: !self.no_straighten,
             evidence: self.evidence.then(|| LadderConfig {
                 rungs: self.evidence_rungs,
                 steps: self.evidence_steps,

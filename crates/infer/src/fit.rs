@@ -14,7 +14,9 @@ use crate::diagnostics::split_rhat;
 use crate::layout::ParamSpec;
 use crate::model::{DERIVED_NAMES, Derived, Evaluation, FailureSummary, GalaxyModel};
 use crate::optimize::maximum_a_posteriori;
-use crate::pipeline::{SamplingPlan, bounded_interval, information_criteria, sample_around};
+use crate::pipeline::{
+    SamplingPlan, Straightening, bounded_interval, information_criteria, sample_straightened,
+};
 use crate::priors::Priors;
 use crate::sampler::{ChainStore, LogDensity, MoveMix, Observer, RunConfig};
 use crate::summary::{Interval, interval};
@@ -44,6 +46,14 @@ pub struct FitConfig {
     /// the check that the prior a user set is the prior the sampler sees.
     #[serde(default)]
     pub prior_only: bool,
+    /// Straighten the SIDM posterior before sampling it ([`crate::reparam`]); off, the
+    /// ensemble samples the coordinates themselves (slower to mix on spirals; for comparison).
+    #[serde(default = "straighten_by_default")]
+    pub straighten: bool,
+}
+
+fn straighten_by_default() -> bool {
+    true
 }
 
 impl Default for FitConfig {
@@ -59,6 +69,7 @@ impl Default for FitConfig {
             moves: MoveMix::default(),
             evidence: None,
             prior_only: false,
+            straighten: true,
         }
     }
 }
@@ -161,7 +172,7 @@ pub fn fit_galaxy<O: Observer>(
         seed: config.seed,
     };
     let bounds = posterior.layout().bounds();
-    let (outcome, n_walkers) = sample_around(
+    let (outcome, n_walkers, _) = sample_straightened(
         &posterior,
         &map.theta,
         &bounds,
@@ -171,6 +182,7 @@ pub fn fit_galaxy<O: Observer>(
             let mut derived = vec![f64::NAN; posterior.n_derived()];
             posterior.log_density(trial, &mut derived).is_finite()
         },
+        &straightening(&posterior, config.straighten),
         observer,
     )?;
     let burn_in = outcome.burn_in();
@@ -286,6 +298,19 @@ pub fn fit_galaxy<O: Observer>(
         best_theta,
         best,
     })
+}
+
+/// How the sampler straightens this posterior ([`crate::reparam`]): when σ/m is sampled with
+/// other halo coordinates (the SIDM core or outer halo), every other coordinate is regressed on
+/// log σ/m and the ones before it; otherwise nothing is straightened.
+fn straightening(posterior: &GalaxyModel, wanted: bool) -> Straightening {
+    let layout = posterior.layout();
+    match layout.index_of(ParamId::SigmaM) {
+        Some(given) if wanted && layout.halo_specs().len() > 1 => {
+            Straightening::new(given, (0..layout.len()).filter(|&k| k != given).collect())
+        }
+        _ => Straightening::new(0, Vec::new()),
+    }
 }
 
 impl FitSummary {

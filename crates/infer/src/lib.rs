@@ -28,6 +28,7 @@ pub mod optimize;
 pub mod pipeline;
 pub mod population;
 pub mod priors;
+pub mod reparam;
 pub mod run_folder;
 pub mod sampler;
 pub mod session;

@@ -377,9 +377,28 @@ impl RunOutcome {
 pub fn run<D: LogDensity, M: Move, O: Observer>(
     density: &D,
     mv: &M,
+    state: EnsembleState,
+    config: &RunConfig,
+    observer: &mut O,
+) -> RunOutcome {
+    run_recorded(density, mv, state, config, observer, &|_| None)
+}
+
+/// Where a run records its walkers: the sampler's own coordinates (`None`), or other coordinates
+/// of the same points (a position and the change of ln density, minus the log-Jacobian of the
+/// change of coordinates).
+pub type Recording<'a> = &'a (dyn Fn(&[f64]) -> Option<(Vec<f64>, f64)> + Sync);
+
+/// [`run`], recording the chain in the coordinates `record` gives (see [`Recording`]): the
+/// autocorrelation times that decide convergence are those of the recorded chain, so a sampler
+/// that moves in reparameterised coordinates is judged on the coordinates the user reads.
+pub fn run_recorded<D: LogDensity, M: Move, O: Observer>(
+    density: &D,
+    mv: &M,
     mut state: EnsembleState,
     config: &RunConfig,
     observer: &mut O,
+    record: Recording<'_>,
 ) -> RunOutcome {
     let mut chain = ChainStore::new(state.n_walkers(), density.dim(), density.n_derived());
     let mut tau_previous: Option<f64> = None;
@@ -389,12 +408,16 @@ pub fn run<D: LogDensity, M: Move, O: Observer>(
     let mut target_steps = None;
     while state.step < config.max_steps {
         state.advance(density, mv);
-        chain.record_step(
-            state
-                .walkers
-                .iter()
-                .map(|w| (w.position.as_slice(), w.log_density, w.derived.as_slice())),
-        );
+        let recorded: Vec<Option<(Vec<f64>, f64)>> =
+            state.walkers.iter().map(|w| record(&w.position)).collect();
+        chain.record_step(state.walkers.iter().zip(&recorded).map(|(w, r)| match r {
+            Some((position, shift)) => (
+                position.as_slice(),
+                w.log_density + shift,
+                w.derived.as_slice(),
+            ),
+            None => (w.position.as_slice(), w.log_density, w.derived.as_slice()),
+        }));
         let check = state.step.is_multiple_of(config.check_every.max(1))
             && state.step >= config.min_steps.min(config.max_steps);
         if check {
