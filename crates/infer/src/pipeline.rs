@@ -255,8 +255,12 @@ pub fn sample_straightened<D: LogDensity, O: Observer>(
     };
     // Adaptation: runs of the pilot's length in the map's coordinates, each refitting the map
     // to every sample so far, until the samples stop spreading in s beyond the map's range and
-    // τ is short (after at least `min_refits` of them).
+    // τ is short (after at least `min_refits` of them, when the cap allows).
+    // Adaptation never takes more than half the step cap.
     for refits in 0..straightening.max_refits {
+        if done + pilot_steps > cap / 2 {
+            break;
+        }
         let mut offset = Offset {
             observer: &mut *observer,
             offset: done,
