@@ -58,9 +58,8 @@ fn benches(c: &mut Criterion) {
             })
         });
     });
-    // A demo spiral with a bulge. Under the outer-halo prior with its Jacobian, Kiln S01
-    // converges under the default cap (τ ≈ 160 steps); S02–S05 need more steps than the cap in
-    // the core coordinates (τ ≈ 500–850), see DEVELOPERS.md.
+    // A demo spiral with a bulge (straightened: τ ≈ 33 steps; unstraightened ≈ 160), see
+    // DEVELOPERS.md.
     let spiral = demo("kiln_s01.ecsv");
     group.bench_function("sidm_demo_spiral_one_core", |b| {
         b.iter(|| {

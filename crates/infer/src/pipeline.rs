@@ -238,8 +238,44 @@ pub fn sample_straightened<D: LogDensity, O: Observer>(
     // The map is fitted to every sample since the pilot's first half (the walkers leaving their
     // starting ball): each later run spreads further along the ridge.
     let mut samples = chain_positions(&pilot.chain, done / 2);
-    let Some(mut map) = ConditionalMap::fit(&samples, straightening.given, &straightening.bent)
-    else {
+    let mut fitted = ConditionalMap::fit(&samples, straightening.given, &straightening.bent);
+    // A pilot whose samples cannot determine a map (walkers still bunched in their starting
+    // ball) goes on for another round, within the adaptation's budget.
+    let mut extra = 0;
+    while fitted.is_none() && extra < straightening.max_refits && done + pilot_steps <= cap / 2 {
+        let state = EnsembleState::new(
+            &Tempered {
+                inner: density,
+                beta: beta(0),
+            },
+            positions,
+            plan.seed ^ (0x9170_7000 + extra as u64),
+        )?;
+        let mut offset = Offset {
+            observer: &mut *observer,
+            offset: done,
+            cap,
+        };
+        let more = run(
+            &Tempered {
+                inner: density,
+                beta: beta(0),
+            },
+            plan.moves,
+            state,
+            &pilot_config,
+            &mut offset,
+        );
+        if more.cancelled {
+            return Ok((more, n_walkers, None));
+        }
+        done += more.chain.steps();
+        positions = final_positions(&more);
+        samples.extend(chain_positions(&more.chain, 0));
+        fitted = ConditionalMap::fit(&samples, straightening.given, &straightening.bent);
+        extra += 1;
+    }
+    let Some(mut map) = fitted else {
         let main_config = RunConfig {
             max_steps: cap.saturating_sub(done).max(1),
             ..*plan.run
@@ -300,25 +336,76 @@ pub fn sample_straightened<D: LogDensity, O: Observer>(
             break;
         }
     }
-    let main_config = RunConfig {
-        max_steps: cap.saturating_sub(done).max(1),
-        ..*plan.run
-    };
-    let mut offset = Offset {
-        observer,
-        offset: done,
-        cap,
-    };
-    let outcome = run_straightened(
-        density,
-        &map,
-        &positions,
-        plan,
-        &main_config,
-        plan.seed ^ 0x57a1_6e7d,
-        &mut offset,
-    )?;
-    Ok((outcome, n_walkers, Some(map)))
+    // The main run; while it shows a long τ at one of its checks, in its first half of the
+    // remaining cap, it is stopped, the map refitted to its samples too, and it starts again
+    // from its last walkers (at most `max_refits` times).
+    let mut main_samples = Vec::new();
+    for restart in 0.. {
+        let remaining = cap.saturating_sub(done).max(1);
+        let main_config = RunConfig {
+            max_steps: remaining,
+            ..*plan.run
+        };
+        let mut watch = LongTauWatch {
+            observer: Offset {
+                observer: &mut *observer,
+                offset: done,
+                cap,
+            },
+            refit_tau: straightening.refit_tau,
+            allowed: restart < straightening.max_refits,
+            until_step: remaining / 2,
+            stopped: false,
+        };
+        let outcome = run_straightened(
+            density,
+            &map,
+            &positions,
+            plan,
+            &main_config,
+            plan.seed ^ (0x57a1_6e7d + 0x100 * restart as u64),
+            &mut watch,
+        )?;
+        if !watch.stopped {
+            return Ok((outcome, n_walkers, Some(map)));
+        }
+        done += outcome.chain.steps();
+        positions = final_positions(&outcome);
+        // Refitted to the main runs' samples alone (the posterior itself, at β = 1).
+        main_samples.extend(chain_positions(&outcome.chain, 0));
+        if let Some(fitted) =
+            ConditionalMap::fit(&main_samples, straightening.given, &straightening.bent)
+        {
+            map = fitted;
+        }
+    }
+    unreachable!("the main run returns once restarts reach the limit")
+}
+
+/// Stops the main run for a refit when τ is long at a check before `until_step` (see
+/// [`sample_straightened`]); a stop asked by the user's observer passes through as a stop.
+struct LongTauWatch<'o, O> {
+    observer: Offset<'o, O>,
+    refit_tau: f64,
+    allowed: bool,
+    until_step: usize,
+    stopped: bool,
+}
+
+impl<O: Observer> Observer for LongTauWatch<'_, O> {
+    fn on_progress(&mut self, progress: &Progress) -> Control {
+        if self.observer.on_progress(progress) == Control::Stop {
+            return Control::Stop;
+        }
+        if self.allowed
+            && progress.step <= self.until_step
+            && progress.tau_max.is_some_and(|tau| tau > self.refit_tau)
+        {
+            self.stopped = true;
+            return Control::Stop;
+        }
+        Control::Continue
+    }
 }
 
 /// The final walkers' positions.
