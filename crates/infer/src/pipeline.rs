@@ -97,11 +97,11 @@ pub struct Straightening {
     /// The conditioning coordinate s.
     pub given: usize,
     /// The coordinates regressed on s (and on the ones before them), in order.
-    pub bent: Vec<usize>,
+    pub regressed: Vec<usize>,
     /// Steps of the pilot and of each adaptation run (they count towards the step cap).
     pub pilot_steps: usize,
     /// Adaptation goes on while an adaptation run's τ exceeds this many steps ...
-    pub refit_tau: f64,
+    pub refit_tau_steps: f64,
     /// ... or its samples reach beyond the map's range of s by more than this fraction of it ...
     pub range_tolerance: f64,
     /// ... for at least `min_refits` and at most `max_refits` runs. A map fitted to samples that
@@ -124,17 +124,22 @@ impl Straightening {
     /// along the whole ridge) and, on Kiln D03, a low-σ/m tail 0.1 dex short at its 16th
     /// percentile against a 30,000-step unstraightened run; the flattened rounds fixed both.
     #[must_use]
-    pub fn new(given: usize, bent: Vec<usize>) -> Self {
+    pub fn new(given: usize, regressed: Vec<usize>) -> Self {
         Self {
             given,
-            bent,
+            regressed,
             pilot_steps: 250,
-            refit_tau: 50.0,
+            refit_tau_steps: 50.0,
             range_tolerance: 0.05,
             min_refits: 3,
             max_refits: 8,
             betas: vec![0.2, 0.2, 0.45],
         }
+    }
+
+    /// The map fitted to `samples`, if they determine one.
+    fn fit(&self, samples: &[Vec<f64>]) -> Option<ConditionalMap> {
+        ConditionalMap::fit(samples, self.given, &self.regressed)
     }
 }
 
@@ -197,7 +202,7 @@ pub fn sample_straightened<D: LogDensity, O: Observer>(
     straightening: &Straightening,
     observer: &mut O,
 ) -> Result<(RunOutcome, usize, Option<ConditionalMap>), InferError> {
-    if straightening.bent.is_empty() {
+    if straightening.regressed.is_empty() {
         let (outcome, n_walkers) =
             sample_around(density, centre, bounds, plan, rng, is_valid, observer)?;
         return Ok((outcome, n_walkers, None));
@@ -220,11 +225,12 @@ pub fn sample_straightened<D: LogDensity, O: Observer>(
         cap,
     };
     let beta = |round: usize| straightening.betas.get(round).copied().unwrap_or(1.0);
+    let flattened = Tempered {
+        inner: density,
+        beta: beta(0),
+    };
     let (pilot, n_walkers) = sample_around(
-        &Tempered {
-            inner: density,
-            beta: beta(0),
-        },
+        &flattened,
         centre,
         bounds,
         &pilot_plan,
@@ -240,16 +246,13 @@ pub fn sample_straightened<D: LogDensity, O: Observer>(
     // The map is fitted to every sample since the pilot's first half (the walkers leaving their
     // starting ball): each later run spreads further along the ridge.
     let mut samples = chain_positions(&pilot.chain, done / 2);
-    let mut fitted = ConditionalMap::fit(&samples, straightening.given, &straightening.bent);
+    let mut fitted = straightening.fit(&samples);
     // A pilot whose samples cannot determine a map (walkers still bunched in their starting
     // ball) goes on for another round, within the adaptation's budget.
     let mut extra = 0;
     while fitted.is_none() && extra < straightening.max_refits && done + pilot_steps <= cap / 2 {
         let state = EnsembleState::new(
-            &Tempered {
-                inner: density,
-                beta: beta(0),
-            },
+            &flattened,
             positions,
             plan.seed ^ (0x9170_7000 + extra as u64),
         )?;
@@ -258,23 +261,14 @@ pub fn sample_straightened<D: LogDensity, O: Observer>(
             offset: done,
             cap,
         };
-        let more = run(
-            &Tempered {
-                inner: density,
-                beta: beta(0),
-            },
-            plan.moves,
-            state,
-            &pilot_config,
-            &mut offset,
-        );
+        let more = run(&flattened, plan.moves, state, &pilot_config, &mut offset);
         if more.cancelled {
             return Ok((more, n_walkers, None));
         }
         done += more.chain.steps();
         positions = final_positions(&more);
         samples.extend(chain_positions(&more.chain, 0));
-        fitted = ConditionalMap::fit(&samples, straightening.given, &straightening.bent);
+        fitted = straightening.fit(&samples);
         extra += 1;
     }
     let Some(mut map) = fitted else {
@@ -293,8 +287,7 @@ pub fn sample_straightened<D: LogDensity, O: Observer>(
     };
     // Adaptation: runs of the pilot's length in the map's coordinates, each refitting the map
     // to every sample so far, until the samples stop spreading in s beyond the map's range and
-    // τ is short (after at least `min_refits` of them, when the cap allows).
-    // Adaptation never takes more than half the step cap.
+    // τ is short (after at least `min_refits` of them), within half the step cap.
     for refits in 0..straightening.max_refits {
         if done + pilot_steps > cap / 2 {
             break;
@@ -327,11 +320,9 @@ pub fn sample_straightened<D: LogDensity, O: Observer>(
             fresh.iter().map(|x| x[straightening.given]),
             straightening.range_tolerance,
         );
-        let long_tau = outcome.tau_max() > straightening.refit_tau;
+        let long_tau = outcome.tau_max() > straightening.refit_tau_steps;
         samples.extend(fresh);
-        if let Some(fitted) =
-            ConditionalMap::fit(&samples, straightening.given, &straightening.bent)
-        {
+        if let Some(fitted) = straightening.fit(&samples) {
             map = fitted;
         }
         if refits + 1 >= straightening.min_refits && beta >= 1.0 && !spread_further && !long_tau {
@@ -355,7 +346,7 @@ pub fn sample_straightened<D: LogDensity, O: Observer>(
                 offset: done,
                 cap,
             },
-            refit_tau: straightening.refit_tau,
+            refit_tau_steps: straightening.refit_tau_steps,
             allowed: restart < straightening.max_refits,
             until_step: remaining / 2,
             stopped: false,
@@ -376,9 +367,7 @@ pub fn sample_straightened<D: LogDensity, O: Observer>(
         positions = final_positions(&outcome);
         // Refitted to the main runs' samples alone (the posterior itself, at β = 1).
         main_samples.extend(chain_positions(&outcome.chain, 0));
-        if let Some(fitted) =
-            ConditionalMap::fit(&main_samples, straightening.given, &straightening.bent)
-        {
+        if let Some(fitted) = straightening.fit(&main_samples) {
             map = fitted;
         }
         restart += 1;
@@ -389,7 +378,7 @@ pub fn sample_straightened<D: LogDensity, O: Observer>(
 /// [`sample_straightened`]); a stop asked by the user's observer passes through as a stop.
 struct LongTauWatch<'o, O> {
     observer: Offset<'o, O>,
-    refit_tau: f64,
+    refit_tau_steps: f64,
     allowed: bool,
     until_step: usize,
     stopped: bool,
@@ -402,7 +391,9 @@ impl<O: Observer> Observer for LongTauWatch<'_, O> {
         }
         if self.allowed
             && progress.step <= self.until_step
-            && progress.tau_max.is_some_and(|tau| tau > self.refit_tau)
+            && progress
+                .tau_max
+                .is_some_and(|tau| tau > self.refit_tau_steps)
         {
             self.stopped = true;
             return Control::Stop;
@@ -446,11 +437,16 @@ fn run_straightened<D: LogDensity, O: Observer>(
     };
     let start = positions.iter().map(|p| map.to_sampler(p)).collect();
     let state = EnsembleState::new(&straight, start, seed)?;
-    let record = |p: &[f64]| Some((map.to_model(p), -map.log_jacobian(p)));
+    let in_theta = |p: &[f64]| {
+        let (theta, log_jacobian) = map.to_model_with_log_jacobian(p);
+        (theta, -log_jacobian)
+    };
+    let record = |p: &[f64]| Some(in_theta(p));
     let mut outcome = run_recorded(&straight, plan.moves, state, config, observer, &record);
     for walker in &mut outcome.state.walkers {
-        walker.log_density -= map.log_jacobian(&walker.position);
-        walker.position = map.to_model(&walker.position);
+        let (theta, shift) = in_theta(&walker.position);
+        walker.position = theta;
+        walker.log_density += shift;
     }
     Ok(outcome)
 }

@@ -20,18 +20,17 @@
 //! fitted by weighted least squares to a pilot run's samples (h_k on ln |residual|, the weights
 //! the fitted widths⁻²). A flaring ridge needs local freedom and accuracy: its thin end must be
 //! fitted as closely as its width, which global polynomials in s and piecewise-linear functions
-//! did not manage. The mean, the correlations and the widths of the
-//! posterior may thus all drift with σ/m (on Kiln S02 the ρ0–σ0 correlation turns from +0.2 to
-//! −0.55 along the ridge, and the thinnest local direction is up to six times thinner than the
-//! whole posterior's; in the map's coordinates the local widths agree within a factor 1.5).
-//! The map is a bijection for any fitted coefficients, with
+//! did not manage. The mean, the correlations and the widths of the posterior may thus all drift
+//! with σ/m (on Kiln S02 the ρ0–σ0 correlation turns from +0.2 to −0.55 along the ridge, and the
+//! thinnest local direction is up to six times thinner than the whole posterior's; in the map's
+//! coordinates the local widths agree within a factor 1.5). The map is a bijection for any
+//! fitted coefficients, with
 //! ln |∂θ/∂θ'| = Σ_j ln σ_j + Σ_k h_k(s), so the density sampled in θ' is p(θ(θ')) |∂θ/∂θ'|
 //! exactly: the fit decides how well the sampler mixes, never which distribution it samples.
 //! Beyond the pilot's range of s, m_k continues as its tangent line and β, h keep their end
 //! values (a smooth, still-bijective extension).
 
 use crate::sampler::LogDensity;
-use crate::tempering::SplitDensity;
 
 /// Distinct knots of the splines in s, at equally spaced quantiles of the pilot's s.
 const KNOTS: usize = 10;
@@ -50,9 +49,9 @@ struct Row {
     log_width: Vec<f64>,
 }
 
-/// The non-zero cubic B-spline basis functions at s (clamped to the knots' range): (index,
+/// The non-zero cubic B-spline basis functions at one s (clamped to the knots' range): (index,
 /// value) pairs summing to one.
-type Hat = [(usize, f64); DEGREE + 1];
+type SplineWeights = [(usize, f64); DEGREE + 1];
 
 /// A clamped cubic B-spline basis on distinct knots k_0 < … < k_{K−1}: the knot vector repeats
 /// each end DEGREE + 1 times; K + DEGREE − 1 basis functions (Piegl & Tiller, The NURBS Book,
@@ -79,7 +78,7 @@ impl Splines {
         (self.vector[0], self.vector[self.vector.len() - 1])
     }
 
-    fn basis(&self, s: f64) -> Hat {
+    fn basis(&self, s: f64) -> SplineWeights {
         let u = &self.vector;
         let n = self.len() - 1;
         let (lo, hi) = self.range();
@@ -119,8 +118,8 @@ impl Splines {
     }
 }
 
-fn interpolate(values: &[f64], hat: &Hat) -> f64 {
-    hat.iter().map(|&(i, w)| values[i] * w).sum()
+fn interpolate(values: &[f64], at: &SplineWeights) -> f64 {
+    at.iter().map(|&(i, w)| values[i] * w).sum()
 }
 
 /// A sparse row of a design matrix: (column, value) pairs.
@@ -144,25 +143,25 @@ pub struct ConditionalMap {
 }
 
 impl ConditionalMap {
-    /// Fits the map to `samples` (positions θ): coordinate `given` conditions each of `bent`, in
-    /// that order (coordinates in neither pass through unchanged). None when the samples cannot
+    /// Fits the map to `samples` (positions θ): coordinate `given` conditions each of
+    /// `regressed`, in that order (coordinates in neither pass through unchanged). None when the samples cannot
     /// determine it (too few, a coordinate without spread, a singular regression).
     #[must_use]
-    pub fn fit(samples: &[Vec<f64>], given: usize, bent: &[usize]) -> Option<Self> {
+    pub fn fit(samples: &[Vec<f64>], given: usize, regressed: &[usize]) -> Option<Self> {
         const MIN_SAMPLES: usize = 64;
         let dim = samples.first()?.len();
         if samples.len() < MIN_SAMPLES
-            || bent.is_empty()
-            || bent.contains(&given)
+            || regressed.is_empty()
+            || regressed.contains(&given)
             || given >= dim
-            || bent.iter().any(|&k| k >= dim)
+            || regressed.iter().any(|&k| k >= dim)
         {
             return None;
         }
         let n = samples.len() as f64;
         let mut centre = vec![0.0; dim];
         let mut spread = vec![1.0; dim];
-        for &k in std::iter::once(&given).chain(bent) {
+        for &k in std::iter::once(&given).chain(regressed) {
             let mean = samples.iter().map(|x| x[k]).sum::<f64>() / n;
             let sd = (samples.iter().map(|x| (x[k] - mean).powi(2)).sum::<f64>() / n).sqrt();
             if !(sd.is_finite() && sd > 0.0) {
@@ -191,20 +190,20 @@ impl ConditionalMap {
             return None;
         }
         let splines = Splines::new(&knots);
-        let basis: Vec<Hat> = s.iter().map(|&v| splines.basis(v)).collect();
+        let basis: Vec<SplineWeights> = s.iter().map(|&v| splines.basis(v)).collect();
         let k = splines.len();
-        let width_design: Vec<SparseRow> = basis.iter().map(|hat| hat.to_vec()).collect();
-        let mut rows: Vec<Row> = Vec::with_capacity(bent.len());
-        for (position, &index) in bent.iter().enumerate() {
-            let earlier = &bent[..position];
+        let width_design: Vec<SparseRow> = basis.iter().map(|at| at.to_vec()).collect();
+        let mut rows: Vec<Row> = Vec::with_capacity(regressed.len());
+        for (position, &index) in regressed.iter().enumerate() {
+            let earlier = &regressed[..position];
             let columns = k * (1 + earlier.len());
             let design: Vec<SparseRow> = standard
                 .iter()
                 .zip(&basis)
-                .map(|(x, hat)| {
-                    let mut f = hat.to_vec();
+                .map(|(x, at)| {
+                    let mut f = at.to_vec();
                     for (e, &j) in earlier.iter().enumerate() {
-                        f.extend(hat.iter().map(|&(i, w)| (k * (e + 1) + i, w * x[j])));
+                        f.extend(at.iter().map(|&(i, w)| (k * (e + 1) + i, w * x[j])));
                     }
                     f
                 })
@@ -235,7 +234,7 @@ impl ConditionalMap {
                 log_width = least_squares(&width_design, k, &log_abs, &vec![1.0; log_abs.len()])?;
                 weights = basis
                     .iter()
-                    .map(|hat| (-2.0 * interpolate(&log_width, hat)).exp())
+                    .map(|at| (-2.0 * interpolate(&log_width, at)).exp())
                     .collect();
             }
             let mean = coefficients[..k].to_vec();
@@ -260,10 +259,10 @@ impl ConditionalMap {
         })
     }
 
-    /// m(s) + Σ β_j(s) x_j and h(s) for `row` at the standardised s, with the extension beyond
-    /// the knots: m continues as its tangent line, β and h keep their end values.
-    fn regression(&self, row: &Row, s: f64, x: &[f64]) -> (f64, f64) {
-        let weights = self.splines.basis(s);
+    /// m(s) + Σ β_j(s) x_j and h(s) for `row` at the standardised s (with its spline weights
+    /// `at`), with the extension beyond the knots: m continues as its tangent line, β and h keep
+    /// their end values.
+    fn regression(&self, row: &Row, s: f64, at: &SplineWeights, x: &[f64]) -> (f64, f64) {
         let (lo, hi) = self.splines.range();
         let beyond = if s < lo || s > hi {
             let (left, right) = self.splines.end_slopes(&row.mean);
@@ -275,14 +274,14 @@ impl ConditionalMap {
         } else {
             0.0
         };
-        let mean = interpolate(&row.mean, &weights)
+        let mean = interpolate(&row.mean, at)
             + beyond
             + row
                 .slopes
                 .iter()
-                .map(|(j, b)| interpolate(b, &weights) * x[*j])
+                .map(|(j, b)| interpolate(b, at) * x[*j])
                 .sum::<f64>();
-        (mean, interpolate(&row.log_width, &weights))
+        (mean, interpolate(&row.log_width, at))
     }
 
     /// Whether every value of the conditioning coordinate in `values` (θ units) lies within the
@@ -300,22 +299,30 @@ impl ConditionalMap {
     /// θ for sampler coordinates θ'.
     #[must_use]
     pub fn to_model(&self, sampler: &[f64]) -> Vec<f64> {
-        // Standardised coordinates, filled in the map's order.
+        self.to_model_with_log_jacobian(sampler).0
+    }
+
+    /// θ for sampler coordinates θ', and ln |∂θ/∂θ'| there (one evaluation of the splines).
+    #[must_use]
+    pub fn to_model_with_log_jacobian(&self, sampler: &[f64]) -> (Vec<f64>, f64) {
+        // Standardised coordinates, filled in the map's order. The sampler's s and its
+        // pass-through coordinates already are standardised ones (the latter with μ = 0, σ = 1).
         let mut x = sampler.to_vec();
-        for (k, v) in x.iter_mut().enumerate() {
-            if k != self.given && !self.rows.iter().any(|r| r.index == k) {
-                *v = (*v - self.centre[k]) / self.spread[k];
-            }
-        }
         let s = x[self.given];
+        let at = self.splines.basis(s);
+        let mut log_widths = 0.0;
         for row in &self.rows {
-            let (mean, log_width) = self.regression(row, s, &x);
+            let (mean, log_width) = self.regression(row, s, &at, &x);
             x[row.index] = mean + log_width.exp() * sampler[row.index];
+            log_widths += log_width;
         }
-        x.iter()
+        let log_jacobian = self.spread.iter().map(|sd| sd.ln()).sum::<f64>() + log_widths;
+        let theta = x
+            .iter()
             .zip(self.centre.iter().zip(&self.spread))
             .map(|(v, (m, sd))| m + sd * v)
-            .collect()
+            .collect();
+        (theta, log_jacobian)
     }
 
     /// Sampler coordinates θ' for θ (the inverse of [`ConditionalMap::to_model`]).
@@ -328,8 +335,9 @@ impl ConditionalMap {
             .collect();
         let mut sampler = x.clone();
         let s = x[self.given];
+        let at = self.splines.basis(s);
         for row in &self.rows {
-            let (mean, log_width) = self.regression(row, s, &x);
+            let (mean, log_width) = self.regression(row, s, &at, &x);
             sampler[row.index] = (x[row.index] - mean) * (-log_width).exp();
         }
         sampler
@@ -338,13 +346,7 @@ impl ConditionalMap {
     /// ln |∂θ/∂θ'| at sampler coordinates θ'.
     #[must_use]
     pub fn log_jacobian(&self, sampler: &[f64]) -> f64 {
-        let weights = self.splines.basis(sampler[self.given]);
-        self.spread.iter().map(|sd| sd.ln()).sum::<f64>()
-            + self
-                .rows
-                .iter()
-                .map(|row| interpolate(&row.log_width, &weights))
-                .sum::<f64>()
+        self.to_model_with_log_jacobian(sampler).1
     }
 }
 
@@ -415,30 +417,12 @@ impl<D: LogDensity> LogDensity for Reparameterised<'_, D> {
     }
 
     fn log_density(&self, sampler: &[f64], derived: &mut [f64]) -> f64 {
-        let value = self.inner.log_density(&self.map.to_model(sampler), derived);
+        let (theta, log_jacobian) = self.map.to_model_with_log_jacobian(sampler);
+        let value = self.inner.log_density(&theta, derived);
         if value.is_finite() {
-            value + self.map.log_jacobian(sampler)
+            value + log_jacobian
         } else {
             value
-        }
-    }
-}
-
-/// The split for tempering: the Jacobian belongs to the prior (the likelihood is a function of
-/// θ), so ln Z is the same in either coordinates.
-impl<D: SplitDensity> SplitDensity for Reparameterised<'_, D> {
-    fn dim(&self) -> usize {
-        self.inner.dim()
-    }
-
-    fn log_prior_and_likelihood(&self, sampler: &[f64]) -> (f64, f64) {
-        let (log_prior, log_likelihood) = self
-            .inner
-            .log_prior_and_likelihood(&self.map.to_model(sampler));
-        if log_prior.is_finite() {
-            (log_prior + self.map.log_jacobian(sampler), log_likelihood)
-        } else {
-            (log_prior, log_likelihood)
         }
     }
 }
@@ -600,14 +584,14 @@ mod tests {
         let coefficients =
             least_squares(&design, splines.len(), &target, &vec![1.0; grid.len()]).expect("fit");
         for s in [-2.0, -1.3, -0.5, 0.0, 0.77, 2.2, 3.0] {
-            let hat = splines.basis(s);
-            let total: f64 = hat.iter().map(|&(_, w)| w).sum();
+            let at = splines.basis(s);
+            let total: f64 = at.iter().map(|&(_, w)| w).sum();
             assert!(
                 (total - 1.0).abs() < 1e-12,
                 "partition of unity at {s}: {total}"
             );
             assert!(
-                (interpolate(&coefficients, &hat) - cubic(s)).abs() < 1e-9,
+                (interpolate(&coefficients, &at) - cubic(s)).abs() < 1e-9,
                 "cubic at {s}"
             );
         }
