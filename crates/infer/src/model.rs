@@ -96,6 +96,9 @@ pub struct GalaxyModel {
     /// θ indices of the two coordinates that set the outer halo's (M200, c200), when the family
     /// is not sampled in (log V200, log c200) itself (see [`GalaxyModel::outer_halo_log_prior`]).
     outer_halo: Option<[usize; 2]>,
+    /// Whether both of those coordinates are log10 of their parameters, so that a build's
+    /// closed-form determinant in ln coordinates serves unchanged.
+    outer_halo_in_log10: bool,
     /// SIDM sampled in its outer halo: the last core found, where the next search starts (it
     /// changes the cost of finding the lowest-density core, not the core found).
     core_guess: Option<Mutex<Option<(f64, f64)>>>,
@@ -263,6 +266,11 @@ impl GalaxyModel {
             .family()
             .outer_halo_parameters()
             .and_then(|[a, b]| Some([layout.index_of(a)?, layout.index_of(b)?]));
+        let outer_halo_in_log10 = outer_halo.is_some_and(|indices| {
+            indices
+                .iter()
+                .all(|&i| layout.specs()[i].transform == Transform::Log10)
+        });
         Ok(Self {
             model,
             priors,
@@ -277,6 +285,7 @@ impl GalaxyModel {
             rows,
             has_bulge: table.v_bulge_kms.is_some(),
             outer_halo,
+            outer_halo_in_log10,
             core_guess: samples_outer_halo(model, &priors).then(|| Mutex::new(None)),
             distance_mpc,
             inclination_deg,
@@ -570,8 +579,9 @@ impl GalaxyModel {
     /// NFW and Einasto sample (log V200, log c200): the layout holds the bounds and this adds
     /// the concentration term. SIDM and Burkert sample other coordinates u = (log ρ0, log σ0)
     /// or (log ρ0, log r0), mapped to w = (log M200, log c200); the density on u is p(w) |∂w/∂u|,
-    /// so the derived w follow p(w) wherever the map is one-to-one. The Jacobian comes from
-    /// forward differences of the family's own build (two extra builds per evaluation).
+    /// so the derived w follow p(w) wherever the map is one-to-one. The Jacobian comes with the
+    /// build where the family computes it (SIDM: variational equations of the Jeans
+    /// integration), else from forward differences of the family's build (two extra builds).
     ///
     /// Why core-first coordinates with a Jacobian rather than sampling the outer halo and
     /// solving halo-first: a core-first SIDM solve costs ≈ 10 µs and is smooth in its inputs;
@@ -610,30 +620,42 @@ impl GalaxyModel {
         {
             return f64::NEG_INFINITY;
         }
-        // One baryonic mass model at θ's nuisances for the nudged builds and the branch test.
+        // One baryonic mass model at θ's nuisances for nudged builds and the branch test, built
+        // only when one of them needs it.
         let values = self.layout.values(theta);
-        let baryons = if self.model.family().uses_baryons() {
-            match self.baryons_at_values(&values) {
-                Ok(table) => Some(table),
-                Err(_) => return f64::NEG_INFINITY,
+        let uses_baryons = self.model.family().uses_baryons();
+        let table = std::cell::OnceCell::new();
+        let (table, values_ref) = (&table, &values);
+        let context = move || -> Option<HaloContext<'_>> {
+            if !uses_baryons {
+                return Some(HaloContext {
+                    cosmology: self.cosmology,
+                    baryons: &NoBaryons,
+                    age_gyr: self.age_gyr,
+                });
             }
-        } else {
-            None
+            let table = table
+                .get_or_init(|| self.baryons_at_values(values_ref).ok())
+                .as_ref()?;
+            Some(self.halo_context(table))
         };
-        let context = match &baryons {
-            Some(table) => self.halo_context(table),
-            None => HaloContext {
-                cosmology: self.cosmology,
-                baryons: &NoBaryons,
-                age_gyr: self.age_gyr,
-            },
+        // The build's closed-form determinant is in ln coordinates, the same as in log10 ones.
+        let det = match halo.outer_jacobian_det.filter(|_| self.outer_halo_in_log10) {
+            Some(det) => Some(det),
+            None => context().and_then(|context| {
+                self.outer_halo_jacobian(theta, indices, (m200, c200), &context)
+            }),
         };
-        let Some(det) = self.outer_halo_jacobian(theta, indices, (m200, c200), &context) else {
+        let Some(det) = det else {
             return f64::NEG_INFINITY;
         };
         if let Some(contrast) = halo.core_contrast_ln
             && self.priors.sidm_branches == SidmBranches::LowestDensity
-            && !Self::is_lowest_density_core(&values, contrast, det, &context)
+            && !caldera_physics::sidm::lowest_density_by_sheet(contrast, det).unwrap_or_else(|| {
+                context().is_some_and(|context| {
+                    Self::is_lowest_density_core(&values, contrast, det, &context)
+                })
+            })
         {
             return f64::NEG_INFINITY;
         }

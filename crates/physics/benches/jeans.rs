@@ -1,5 +1,7 @@
 //! Benchmarks of the hot paths every fit and every live curve update goes through:
-//! one core-first solve, one halo-first solve, and one full curve at 30 radii.
+//! one core-first solve (alone, and with its outer-halo Jacobian from the variational
+//! equations against three solves for differences), one halo-first solve, and one full curve
+//! at 30 radii.
 
 use std::hint::black_box;
 
@@ -45,6 +47,14 @@ fn benches(c: &mut Criterion) {
     c.bench_function("core_first/table_baryons", |b| {
         let s = setup(&table);
         b.iter(|| sidm::core_first(&s, black_box(1e8), black_box(40.0)));
+    });
+    c.bench_function("core_first_with_outer_jacobian/table_baryons", |b| {
+        let s = setup(&table);
+        b.iter(|| sidm::core_first_with_outer_jacobian(&s, black_box(1e8), black_box(40.0)));
+    });
+    c.bench_function("outer_jacobian_by_differences/table_baryons", |b| {
+        let s = setup(&table);
+        b.iter(|| sidm::outer_halo_jacobian_det(&s, (black_box(1e8), black_box(40.0))));
     });
     c.bench_function("halo_first/no_baryons", |b| {
         let s = setup(&NoBaryons);

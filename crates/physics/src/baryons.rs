@@ -33,6 +33,17 @@ pub trait EnclosedMass: Send + Sync {
     fn is_massless(&self) -> bool {
         false
     }
+
+    /// The enclosed mass and its radial derivative dM/dr (Msun, Msun/kpc) at `radius_kpc`, for
+    /// the sensitivities of the Jeans solution. The default takes a central difference with a
+    /// relative step of 1e-6; components with a closed form override it.
+    fn enclosed_mass_and_slope(&self, radius_kpc: f64) -> (f64, f64) {
+        let step = 1e-6 * radius_kpc;
+        let slope = (self.enclosed_mass_msun(radius_kpc + step)
+            - self.enclosed_mass_msun(radius_kpc - step))
+            / (2.0 * step);
+        (self.enclosed_mass_msun(radius_kpc), slope)
+    }
 }
 
 /// No baryons: the halo alone.
@@ -48,6 +59,9 @@ impl EnclosedMass for NoBaryons {
     }
     fn is_massless(&self) -> bool {
         true
+    }
+    fn enclosed_mass_and_slope(&self, _radius_kpc: f64) -> (f64, f64) {
+        (0.0, 0.0)
     }
 }
 
@@ -79,6 +93,15 @@ impl EnclosedMass for Hernquist {
     fn enclosed_mass_msun(&self, radius_kpc: f64) -> f64 {
         let x = radius_kpc / (radius_kpc + self.scale_radius_kpc);
         self.mass_msun * x * x
+    }
+    /// dM/dr = 2 M r a / (r + a)³.
+    fn enclosed_mass_and_slope(&self, radius_kpc: f64) -> (f64, f64) {
+        let sum = radius_kpc + self.scale_radius_kpc;
+        let x = radius_kpc / sum;
+        (
+            self.mass_msun * x * x,
+            2.0 * self.mass_msun * x * self.scale_radius_kpc / (sum * sum),
+        )
     }
     fn inner_scale_kpc(&self) -> f64 {
         self.scale_radius_kpc
@@ -253,20 +276,27 @@ impl BaryonTable {
     /// module documentation, in Msun.
     #[must_use]
     pub fn signed_mass_msun(&self, radius_kpc: f64) -> f64 {
+        self.signed_mass_and_slope(radius_kpc).0
+    }
+
+    /// [`BaryonTable::signed_mass_msun`] and its derivative in radius (Msun/kpc).
+    fn signed_mass_and_slope(&self, radius_kpc: f64) -> (f64, f64) {
         let radii = &self.radii_kpc;
         let masses = &self.signed_mass_msun;
         let n = radii.len();
         if radius_kpc <= radii[0] {
             let s = radius_kpc.max(0.0) / radii[0];
-            return masses[0] * s * s * s;
+            return (masses[0] * s * s * s, 3.0 * masses[0] * s * s / radii[0]);
         }
         if radius_kpc >= radii[n - 1] {
-            return masses[n - 1];
+            return (masses[n - 1], 0.0);
         }
         let upper = radii.partition_point(|&r| r < radius_kpc);
         let lower = upper - 1;
-        let w = (radius_kpc - radii[lower]) / (radii[upper] - radii[lower]);
-        masses[lower] + w * (masses[upper] - masses[lower])
+        let width = radii[upper] - radii[lower];
+        let w = (radius_kpc - radii[lower]) / width;
+        let rise = masses[upper] - masses[lower];
+        (masses[lower] + w * rise, rise / width)
     }
 
     /// Signed V_b² at any radius, (km/s)²: exactly the tabulated value at a tabulated radius.
@@ -439,6 +469,16 @@ impl EnclosedMass for BaryonTable {
     fn enclosed_mass_msun(&self, radius_kpc: f64) -> f64 {
         self.signed_mass_msun(radius_kpc).max(0.0)
     }
+    /// The slope of the interpolant itself (one-sided at a tabulated radius: the one of the
+    /// interval below it), zero where the mass is clamped at 0.
+    fn enclosed_mass_and_slope(&self, radius_kpc: f64) -> (f64, f64) {
+        let (mass, slope) = self.signed_mass_and_slope(radius_kpc);
+        if mass > 0.0 {
+            (mass, slope)
+        } else {
+            (0.0, 0.0)
+        }
+    }
     fn inner_scale_kpc(&self) -> f64 {
         self.radii_kpc[0]
     }
@@ -457,6 +497,10 @@ pub(crate) struct ScaledMass<'a> {
 impl EnclosedMass for ScaledMass<'_> {
     fn enclosed_mass_msun(&self, radius_kpc: f64) -> f64 {
         self.factor * self.inner.enclosed_mass_msun(radius_kpc)
+    }
+    fn enclosed_mass_and_slope(&self, radius_kpc: f64) -> (f64, f64) {
+        let (mass, slope) = self.inner.enclosed_mass_and_slope(radius_kpc);
+        (self.factor * mass, self.factor * slope)
     }
     fn inner_scale_kpc(&self) -> f64 {
         self.inner.inner_scale_kpc()

@@ -93,6 +93,10 @@ pub struct HaloDerived {
     pub sigma0_kms: Option<f64>,
     /// SIDM: ln(ρ0/ρ1), the core's density contrast from its centre to r1.
     pub core_contrast_ln: Option<f64>,
+    /// det ∂(ln M200, ln c200)/∂(ln a, ln b) over the family's
+    /// [`HaloFamily::outer_halo_parameters`] (a, b), when the build computes it in closed form
+    /// (SIDM: [`crate::sidm::core_first_with_outer_jacobian`]); None leaves it to differences.
+    pub outer_jacobian_det: Option<f64>,
 }
 
 impl HaloDerived {

@@ -22,7 +22,7 @@ fn setup<'a>(sigma_m_cm2_g: f64, context: &HaloContext<'a>) -> Result<SidmSetup<
     })
 }
 
-fn derived(halo: &SidmHalo, sigma_m_cm2_g: f64) -> HaloDerived {
+fn derived(halo: &SidmHalo, sigma_m_cm2_g: f64, outer_jacobian_det: Option<f64>) -> HaloDerived {
     let s = halo.summary();
     HaloDerived {
         v200_kms: Some(s.v200_kms),
@@ -36,6 +36,7 @@ fn derived(halo: &SidmHalo, sigma_m_cm2_g: f64) -> HaloDerived {
         rho0_msun_kpc3: Some(halo.rho0_msun_kpc3()),
         sigma0_kms: Some(halo.sigma0_kms()),
         core_contrast_ln: Some(halo.core_contrast_ln()),
+        outer_jacobian_det,
     }
 }
 
@@ -64,13 +65,14 @@ impl HaloFamily for SidmFamily {
         context: &HaloContext,
     ) -> Result<BuiltHalo, PhysicsError> {
         let sigma_m = values.require(ParamId::SigmaM)?;
-        let halo = sidm::core_first(
+        // The Jacobian comes with the solve (≈ 1.4× one plain solve): a fit's prior needs it.
+        let (halo, jacobian) = sidm::core_first_with_outer_jacobian(
             &setup(sigma_m, context)?,
             values.require(ParamId::Rho0)?,
             values.require(ParamId::Sigma0)?,
         )?;
         Ok(BuiltHalo {
-            derived: derived(&halo, sigma_m),
+            derived: derived(&halo, sigma_m, Some(sidm::outer_jacobian_det(&jacobian))),
             profile: Box::new(halo),
         })
     }

@@ -108,18 +108,31 @@ impl<'a> JeansProblem<'a> {
         ]
     }
 
-    /// Series start: returns (ξ_s, ψ_s, m_s, ψ_b(ξ_s), power).
-    fn series_start(&self, psi_stop: f64) -> (f64, [f64; 2], f64, f64) {
+    /// The series start near the centre (see [`SeriesStart`]).
+    fn series_start(&self, psi_stop: f64) -> SeriesStart {
         let inner = 0.01 * self.baryons.inner_scale_kpc() / self.core_scale_kpc;
         // Keep the start well before the stopping point (ψ ≈ ξ²/6 near the centre).
-        let mut xi = MAX_START_XI.min(inner).min(0.1 * (6.0 * psi_stop).sqrt());
+        let by_stop = 0.1 * (6.0 * psi_stop).sqrt();
+        let (mut xi, limit) = if inner < MAX_START_XI.min(by_stop) {
+            (inner, StartLimit::Radius)
+        } else if by_stop < MAX_START_XI {
+            (by_stop, StartLimit::Stop)
+        } else {
+            (MAX_START_XI, StartLimit::Xi)
+        };
         loop {
             let (psi_b, power) = self.baryon_series(xi);
             let x2 = xi * xi;
             let psi = x2 / 6.0 - x2 * x2 / 120.0 + psi_b;
             if psi < 0.5 * psi_stop || xi < 1e-8 {
                 let m = xi * x2 / 3.0 - xi * x2 * x2 / 30.0;
-                return (xi, [psi, m], psi_b, power);
+                return SeriesStart {
+                    xi,
+                    state: [psi, m],
+                    psi_b,
+                    power,
+                    limit,
+                };
             }
             xi *= 0.1;
         }
@@ -132,23 +145,8 @@ impl<'a> JeansProblem<'a> {
         if !self.has_baryons {
             return (0.0, 3.0);
         }
-        // Gauss–Legendre nodes and weights on [0, 1] (Abramowitz & Stegun Table 25.4).
-        const NODES: [f64; 5] = [
-            0.046_910_077_030_668,
-            0.230_765_344_947_158,
-            0.5,
-            0.769_234_655_052_842,
-            0.953_089_922_969_332,
-        ];
-        const WEIGHTS: [f64; 5] = [
-            0.118_463_442_528_095,
-            0.239_314_335_249_683,
-            0.284_444_444_444_444,
-            0.239_314_335_249_683,
-            0.118_463_442_528_095,
-        ];
         let mut psi_b = 0.0;
-        for (s, w) in NODES.iter().zip(WEIGHTS) {
+        for (s, w) in GAUSS_LEGENDRE_NODES.iter().zip(GAUSS_LEGENDRE_WEIGHTS) {
             psi_b += w * self.baryon_mass(s * xi) / (s * s);
         }
         psi_b /= xi;
@@ -162,6 +160,67 @@ impl<'a> JeansProblem<'a> {
         (psi_b, power)
     }
 
+    /// The baryonic mass m_b(ξ) and q = ξ dm_b/dξ, both in units of the mass unit.
+    #[inline]
+    fn baryon_mass_and_log_slope(&self, xi: f64) -> (f64, f64) {
+        if self.has_baryons {
+            let r = self.core_scale_kpc * xi;
+            let (mass, slope) = self.baryons.enclosed_mass_and_slope(r);
+            (mass / self.mass_unit_msun, r * slope / self.mass_unit_msun)
+        } else {
+            (0.0, 0.0)
+        }
+    }
+
+    /// The equations with their variational equations. The state is (ψ, m, ∂ψ/∂p_0, ∂ψ/∂p_1,
+    /// ∂m/∂p_0, ∂m/∂p_1) for p = (ln ρ0, ln σ0), the derivatives D taken along the grid, whose
+    /// nodes t_i = t_s(p) + i h move with the start by σ = ∂t_s/∂p (`grid_motion`):
+    /// dD/dt = (∂f/∂y) D + ∂f/∂p + σ ∂f/∂t. The parameters enter f through m_b(ξ) = M_b(r_c ξ)/M_u:
+    /// ∂m_b/∂p = q ∂ln r_c/∂p − m_b ∂ln M_u/∂p with q = ξ dm_b/dξ, so ∂f_ψ/∂p + σ ∂f_ψ/∂t =
+    /// [q (∂ln r_c/∂p + σ) − m_b ∂ln M_u/∂p − σ (m + m_b)]/ξ and σ ∂f_m/∂t = 3σ f_m. (When the
+    /// start sits at a fixed radius, σ = −∂ln r_c/∂p and the baryons' slope q drops out: the
+    /// grid and the baryons' kinks move together.)
+    #[inline]
+    fn slope_with_sensitivity(&self, xi: f64, y: &[f64; 6], grid_motion: [f64; 2]) -> [f64; 6] {
+        let (mb, q) = self.baryon_mass_and_log_slope(xi);
+        let psi_slope = (y[1] + mb) / xi;
+        let m_slope = xi * xi * xi * (-y[0]).exp();
+        let mut out = [psi_slope, m_slope, 0.0, 0.0, 0.0, 0.0];
+        for p in 0..2 {
+            let sigma = grid_motion[p];
+            let forcing_psi = (q * (LN_CORE_SCALE_SLOPES[p] + sigma)
+                - mb * LN_MASS_UNIT_SLOPES[p]
+                - sigma * (y[1] + mb))
+                / xi;
+            out[2 + p] = y[4 + p] / xi + forcing_psi;
+            out[4 + p] = -m_slope * y[2 + p] + 3.0 * sigma * m_slope;
+        }
+        out
+    }
+
+    /// The sensitivities (∂ψ/∂p, ∂m/∂p) of the series start ξ_s for grid motion σ = ∂ln ξ_s/∂p:
+    /// the series' own ξ terms move with ξ_s, and ψ_b(ξ_s) by the quadrature of
+    /// [`JeansProblem::baryon_series`] differentiated (Σ w [q (∂ln r_c/∂p + σ) − m_b (∂ln M_u/∂p + σ)]
+    /// /(s² ξ)).
+    fn series_sensitivity(&self, xi: f64, grid_motion: [f64; 2]) -> [[f64; 2]; 2] {
+        let x2 = xi * xi;
+        let mut d_psi = grid_motion.map(|sigma| (x2 / 3.0 - x2 * x2 / 30.0) * sigma);
+        let d_m = grid_motion.map(|sigma| (xi * x2 - xi * x2 * x2 / 6.0) * sigma);
+        if self.has_baryons {
+            for (s, w) in GAUSS_LEGENDRE_NODES.iter().zip(GAUSS_LEGENDRE_WEIGHTS) {
+                let (mb, q) = self.baryon_mass_and_log_slope(s * xi);
+                for p in 0..2 {
+                    let sigma = grid_motion[p];
+                    d_psi[p] += w
+                        * (q * (LN_CORE_SCALE_SLOPES[p] + sigma)
+                            - mb * (LN_MASS_UNIT_SLOPES[p] + sigma))
+                        / (s * s * xi);
+                }
+            }
+        }
+        [d_psi, d_m]
+    }
+
     /// Integrates outward until ψ reaches `psi_stop` or ξ reaches `xi_stop`. Returns the crossing
     /// of `psi_stop` (None if ξ_stop came first). When `store` is given, every node is kept.
     pub fn integrate(
@@ -170,29 +229,97 @@ impl<'a> JeansProblem<'a> {
         xi_stop: f64,
         mut store: Option<&mut GridSolution>,
     ) -> Result<Option<Crossing>, PhysicsError> {
+        let start = self.series_start(psi_stop);
+        if let Some(grid) = store.as_deref_mut() {
+            grid.begin(start.xi.ln(), self.step_ln_xi, start.psi_b, start.power);
+        }
+        let (xi_start, y) = (start.xi, start.state);
+        let slope = |xi: f64, y: &[f64; 2]| self.slope(xi, y);
+        let Some(bracket) = self.march(psi_stop, xi_stop, (xi_start, y), slope, store)? else {
+            return Ok(None);
+        };
+        Ok(Some(Crossing {
+            ln_xi: bracket.ln_xi(),
+            psi: psi_stop,
+            m: bracket.at(1),
+        }))
+    }
+
+    /// [`JeansProblem::integrate`] with the derivatives of the crossing: returns the crossing
+    /// and ∂ln ξ1, ∂m(ξ1) with respect to (ln ρ0, ln σ0), given ∂ψ_stop/∂(ln ρ0, ln σ0)
+    /// `d_psi_stop`. The variational equations are stepped with the same RK4 steps as the
+    /// solution; ψ and m come out bit for bit as from [`JeansProblem::integrate`].
+    pub fn integrate_with_sensitivity(
+        &self,
+        psi_stop: f64,
+        d_psi_stop: [f64; 2],
+        mut store: Option<&mut GridSolution>,
+    ) -> Result<Option<SensitiveCrossing>, PhysicsError> {
+        let start = self.series_start(psi_stop);
+        if let Some(grid) = store.as_deref_mut() {
+            grid.begin(start.xi.ln(), self.step_ln_xi, start.psi_b, start.power);
+        }
+        // How the grid moves: t_s = ln ξ_s with ξ_s fixed, at a fixed radius (∝ 1/r_c), or
+        // ∝ √ψ_stop.
+        let grid_motion: [f64; 2] = match start.limit {
+            StartLimit::Xi => [0.0; 2],
+            StartLimit::Radius => LN_CORE_SCALE_SLOPES.map(|c| -c),
+            StartLimit::Stop => d_psi_stop.map(|d| 0.5 * d / psi_stop),
+        };
+        let [d_psi, d_m] = self.series_sensitivity(start.xi, grid_motion);
+        let y = [
+            start.state[0],
+            start.state[1],
+            d_psi[0],
+            d_psi[1],
+            d_m[0],
+            d_m[1],
+        ];
+        let slope = |xi: f64, y: &[f64; 6]| self.slope_with_sensitivity(xi, y, grid_motion);
+        let Some(bracket) = self.march(psi_stop, f64::INFINITY, (start.xi, y), slope, store)?
+        else {
+            return Ok(None);
+        };
+        // ψ(ν; p) = ψ_stop(p) at the grid position ν of the crossing: ν moves, and m(ν) with it.
+        let psi_rate = bracket.rate(0);
+        let m_rate = bracket.rate(1);
+        let mut d_ln_xi = [0.0; 2];
+        let mut d_m = [0.0; 2];
+        for p in 0..2 {
+            let d_nu = (d_psi_stop[p] - bracket.at(2 + p)) / psi_rate;
+            d_ln_xi[p] = grid_motion[p] + d_nu;
+            d_m[p] = bracket.at(4 + p) + m_rate * d_nu;
+        }
+        Ok(Some(SensitiveCrossing {
+            crossing: Crossing {
+                ln_xi: bracket.ln_xi(),
+                psi: psi_stop,
+                m: bracket.at(1),
+            },
+            d_ln_xi,
+            d_m,
+        }))
+    }
+
+    /// Steps from `start` = (ξ, state) until the state's ψ (component 0) reaches `psi_stop`,
+    /// returning the step that crosses it; None when ξ reaches `xi_stop` first.
+    fn march<const N: usize>(
+        &self,
+        psi_stop: f64,
+        xi_stop: f64,
+        (xi_start, mut y): (f64, [f64; N]),
+        slope: impl Fn(f64, &[f64; N]) -> [f64; N],
+        mut store: Option<&mut GridSolution>,
+    ) -> Result<Option<Bracket<N>>, PhysicsError> {
         let h = self.step_ln_xi;
         let grow_half = (0.5 * h).exp();
         let grow = h.exp();
-        let (xi_start, mut y, psi_b, power) = self.series_start(psi_stop);
-        let slope = |xi: f64, y: &[f64; 2]| self.slope(xi, y);
         let t_start = xi_start.ln();
-        if let Some(grid) = store.as_deref_mut() {
-            grid.t_start = t_start;
-            grid.step_ln_xi = h;
-            grid.baryon_psi_start = psi_b;
-            grid.baryon_psi_power = power;
-            grid.nodes.clear();
-        }
         let mut xi = xi_start;
         let mut k = slope(xi, &y);
         for step in 0..MAX_STEPS {
             if let Some(grid) = store.as_deref_mut() {
-                grid.nodes.push(Node {
-                    psi: y[0],
-                    m: y[1],
-                    dpsi_dt: k[0],
-                    dm_dt: k[1],
-                });
+                grid.nodes.push(Node::from_state(&y, &k));
             }
             if xi >= xi_stop {
                 return Ok(None);
@@ -200,39 +327,34 @@ impl<'a> JeansProblem<'a> {
             let next = rk4_step(&slope, xi * grow_half, xi * grow, &y, &k, h);
             let xi_next = xi * grow;
             let k_next = slope(xi_next, &next);
-            if !(next[0].is_finite() && next[1].is_finite()) {
+            if !next.iter().all(|v| v.is_finite()) {
                 return Err(PhysicsError::NoConvergence {
                     what: "isothermal Jeans integration",
                 });
             }
             if next[0] >= psi_stop {
-                let a = Node {
-                    psi: y[0],
-                    m: y[1],
-                    dpsi_dt: k[0],
-                    dm_dt: k[1],
-                };
-                let b = Node {
-                    psi: next[0],
-                    m: next[1],
-                    dpsi_dt: k_next[0],
-                    dm_dt: k_next[1],
-                };
                 if let Some(grid) = store.as_deref_mut() {
-                    grid.nodes.push(b);
+                    grid.nodes.push(Node::from_state(&next, &k_next));
                 }
+                // Scalars, not the arrays: a closure borrowing the loop's state would keep it
+                // in memory for the whole loop (measured: 25% slower).
+                let (psi_a, rate_a, psi_b, rate_b) = (y[0], k[0], next[0], k_next[0]);
                 let s = brent(
-                    |s| hermite(a.psi, a.dpsi_dt, b.psi, b.dpsi_dt, h, s) - psi_stop,
+                    move |s| hermite(psi_a, rate_a, psi_b, rate_b, h, s) - psi_stop,
                     0.0,
                     1.0,
                     1e-15,
                     "crossing of the rate density",
                 )?;
-                let t = t_start + (step as f64 + s) * h;
-                return Ok(Some(Crossing {
-                    ln_xi: t,
-                    psi: psi_stop,
-                    m: hermite(a.m, a.dm_dt, b.m, b.dm_dt, h, s),
+                return Ok(Some(Bracket {
+                    t_start,
+                    step: step as f64,
+                    h,
+                    s,
+                    a: y,
+                    ka: k,
+                    b: next,
+                    kb: k_next,
                 }));
             }
             y = next;
@@ -245,7 +367,112 @@ impl<'a> JeansProblem<'a> {
     }
 }
 
+/// ∂ln r_c/∂(ln ρ0, ln σ0) for r_c = σ0/√(4πGρ0).
+pub(crate) const LN_CORE_SCALE_SLOPES: [f64; 2] = [-0.5, 1.0];
+/// ∂ln M_u/∂(ln ρ0, ln σ0) for the mass unit M_u = 4πρ0 r_c³.
+pub(crate) const LN_MASS_UNIT_SLOPES: [f64; 2] = [-0.5, 3.0];
+
+/// Gauss–Legendre nodes and weights on [0, 1] (Abramowitz & Stegun Table 25.4).
+const GAUSS_LEGENDRE_NODES: [f64; 5] = [
+    0.046_910_077_030_668,
+    0.230_765_344_947_158,
+    0.5,
+    0.769_234_655_052_842,
+    0.953_089_922_969_332,
+];
+const GAUSS_LEGENDRE_WEIGHTS: [f64; 5] = [
+    0.118_463_442_528_095,
+    0.239_314_335_249_683,
+    0.284_444_444_444_444,
+    0.239_314_335_249_683,
+    0.118_463_442_528_095,
+];
+
+/// What fixes the series start: ξ itself, a fixed radius inside the baryons' inner scale, or
+/// the stopping ψ (a start well before it).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum StartLimit {
+    Xi,
+    Radius,
+    Stop,
+}
+
+/// The series solution where the integration starts: ξ_s, (ψ, m) there, the baryons' ψ_b(ξ_s)
+/// and the power of ξ it follows inside ξ_s, and what fixed ξ_s.
+struct SeriesStart {
+    xi: f64,
+    state: [f64; 2],
+    psi_b: f64,
+    power: f64,
+    limit: StartLimit,
+}
+
+/// Where ψ reaches ψ_stop with its derivatives with respect to (ln ρ0, ln σ0).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(crate) struct SensitiveCrossing {
+    pub crossing: Crossing,
+    /// ∂ln ξ1/∂(ln ρ0, ln σ0).
+    pub d_ln_xi: [f64; 2],
+    /// ∂m(ξ1)/∂(ln ρ0, ln σ0), in the mass unit at fixed mass unit.
+    pub d_m: [f64; 2],
+}
+
+/// The RK4 step in which ψ crosses ψ_stop: the states and slopes at its ends and the fraction
+/// `s` of the step where the crossing lies.
+struct Bracket<const N: usize> {
+    /// t = ln ξ of the first node and the index of the crossing step.
+    t_start: f64,
+    step: f64,
+    h: f64,
+    s: f64,
+    a: [f64; N],
+    ka: [f64; N],
+    b: [f64; N],
+    kb: [f64; N],
+}
+
+impl<const N: usize> Bracket<N> {
+    fn ln_xi(&self) -> f64 {
+        self.t_start + (self.step + self.s) * self.h
+    }
+
+    /// Component `i` of the state at the crossing (cubic Hermite interpolation).
+    fn at(&self, i: usize) -> f64 {
+        hermite(self.a[i], self.ka[i], self.b[i], self.kb[i], self.h, self.s)
+    }
+
+    /// The rate of change in t of component `i`'s interpolant at the crossing.
+    fn rate(&self, i: usize) -> f64 {
+        let s = self.s;
+        let h = self.h;
+        ((6.0 * s * s - 6.0 * s) * (self.a[i] - self.b[i])
+            + (3.0 * s * s - 4.0 * s + 1.0) * h * self.ka[i]
+            + (3.0 * s * s - 2.0 * s) * h * self.kb[i])
+            / h
+    }
+}
+
+impl Node {
+    fn from_state<const N: usize>(y: &[f64; N], k: &[f64; N]) -> Self {
+        Self {
+            psi: y[0],
+            m: y[1],
+            dpsi_dt: k[0],
+            dm_dt: k[1],
+        }
+    }
+}
+
 impl GridSolution {
+    /// Clears the nodes for a new solution starting at t = ln ξ `t_start`.
+    fn begin(&mut self, t_start: f64, step_ln_xi: f64, baryon_psi_start: f64, power: f64) {
+        self.t_start = t_start;
+        self.step_ln_xi = step_ln_xi;
+        self.baryon_psi_start = baryon_psi_start;
+        self.baryon_psi_power = power;
+        self.nodes.clear();
+    }
+
     pub fn empty() -> Self {
         Self {
             t_start: 0.0,

@@ -299,3 +299,146 @@ fn halo_first_follows_every_root_of_a_velocity_dependent_rate_condition() {
         }
     }
 }
+
+/// ∂(ln M200, ln c200)/∂(ln ρ0, ln σ0) by central differences of [`core_first`] (step 1e-4 in
+/// each logarithm): the oracle for the variational equations.
+fn outer_jacobian_by_differences(setup: &SidmSetup, rho0: f64, sigma0: f64) -> OuterJacobian {
+    const STEP: f64 = 1e-4;
+    let outer = |ln_rho0: f64, ln_sigma0: f64| {
+        let s = core_first(setup, ln_rho0.exp(), ln_sigma0.exp())
+            .expect("nudged core solves")
+            .summary();
+        [s.m200_msun.ln(), s.c200.ln()]
+    };
+    let (a, b) = (rho0.ln(), sigma0.ln());
+    let columns = [
+        (outer(a + STEP, b), outer(a - STEP, b)),
+        (outer(a, b + STEP), outer(a, b - STEP)),
+    ];
+    let mut j = [[0.0; 2]; 2];
+    for (p, (up, down)) in columns.iter().enumerate() {
+        for w in 0..2 {
+            j[w][p] = (up[w] - down[w]) / (2.0 * STEP);
+        }
+    }
+    j
+}
+
+#[test]
+fn outer_jacobian_from_variational_equations_matches_differences() {
+    // Oracle: central differences of the core-first solve itself. Cases span no baryons (where the
+    // problem is scale-free), a Hernquist bulge, a tabulated gas + disk curve with kinks, and a
+    // velocity-dependent cross-section (the rate density's σ0 slope by differences).
+    let bulge = Hernquist::new(3e9, 1.5).expect("valid");
+    let table = kinked_table();
+    let fall_off = CrossSection::fall_off(3.0, 40.0).expect("valid");
+    let mut checked = 0;
+    let mut worst = 0.0f64;
+    let setups: [(SidmSetup, &str); 4] = [
+        (setup(2.0, &NoBaryons), "no baryons"),
+        (setup(1.0, &bulge), "Hernquist bulge"),
+        (setup(0.5, &table), "tabulated baryons"),
+        (
+            SidmSetup {
+                cross_section: fall_off,
+                ..setup(1.0, &table)
+            },
+            "velocity-dependent, tabulated",
+        ),
+    ];
+    for (setup, name) in &setups {
+        for (rho0, sigma0) in [
+            (1e8, 40.0),
+            (3e7, 60.0),
+            (5e8, 25.0),
+            (2e7, 90.0),
+            (3e8, 70.0),
+        ] {
+            let Ok((halo, j)) = core_first_with_outer_jacobian(setup, rho0, sigma0) else {
+                continue;
+            };
+            // The same halo as the plain solve, bit for bit.
+            let plain = core_first(setup, rho0, sigma0).expect("solves");
+            assert_eq!(halo.summary(), plain.summary(), "{name}");
+            let oracle = outer_jacobian_by_differences(setup, rho0, sigma0);
+            let scale = oracle.iter().flatten().fold(0.0f64, |m, v| m.max(v.abs()));
+            for w in 0..2 {
+                for p in 0..2 {
+                    let error = (j[w][p] - oracle[w][p]).abs() / scale;
+                    worst = worst.max(error);
+                    assert!(
+                        error < 1e-6,
+                        "{name}, ρ0 {rho0:e}, σ0 {sigma0}: J[{w}][{p}] {} vs differences {}",
+                        j[w][p],
+                        oracle[w][p]
+                    );
+                }
+            }
+            let det = outer_jacobian_det(&j);
+            let fd_det = outer_halo_jacobian_det(setup, (rho0, sigma0)).expect("solves");
+            assert_relative_eq!(det, fd_det, max_relative = 1e-3);
+            checked += 1;
+        }
+    }
+    assert!(checked >= 12, "only {checked} cores had an NFW match");
+    eprintln!("worst relative Jacobian error {worst:e} over {checked} cores");
+}
+
+#[test]
+fn crossing_sensitivities_match_differences() {
+    // Oracle: central differences (step 1e-4 in ln ρ0 and ln σ0) of the crossing itself, at the
+    // default step and a 4× finer one; a Hernquist bulge and tabulated baryons, whose kinks the
+    // grid steps across. The variational equations differentiate the discrete solution itself,
+    // the grid's motion with the series start included: to 1e-6 where the start sits at a fixed
+    // radius (r_c beyond 1% of the baryons' inner scale). A denser core (ρ0 = 1e10) starts at a
+    // fixed ξ instead; there the table's kinks slide across a grid fixed in ξ, the discrete
+    // solution is smooth only between stage crossings, and differences over a step of 1e-4 see
+    // that (2.7e-4 at most): 1e-3, immaterial for a prior density.
+    let bulge = Hernquist::new(3e9, 1.5).expect("valid");
+    let table = kinked_table();
+    let cases: [(&dyn EnclosedMass, f64, f64, f64); 6] = [
+        (&bulge, 2e7, 90.0, 1e-6),
+        (&bulge, 1e8, 40.0, 1e-6),
+        (&bulge, 1e10, 30.0, 1e-6),
+        (&table, 2e7, 90.0, 1e-6),
+        (&table, 1e8, 40.0, 1e-6),
+        (&table, 1e10, 30.0, 1e-3),
+    ];
+    for (baryons, rho0, sigma0, tolerance) in cases {
+        let s = setup(1.0, baryons);
+        for step in [jeans::STEP_LN_XI, jeans::STEP_LN_XI / 4.0] {
+            let crossing = |ln_rho0: f64, ln_sigma0: f64| {
+                let (rho0, sigma0) = (ln_rho0.exp(), ln_sigma0.exp());
+                let rho1 = s.cross_section.rate_density_msun_kpc3(sigma0, s.age_gyr);
+                jeans::JeansProblem::new(rho0, sigma0, s.baryons)
+                    .with_step(step)
+                    // ψ_stop = ln ρ0 − ln ρ1 with ρ1 ∝ 1/σ0.
+                    .integrate_with_sensitivity((rho0 / rho1).ln(), [1.0, 1.0], None)
+                    .expect("integrates")
+                    .expect("crosses")
+            };
+            let (a, b) = (rho0.ln(), sigma0.ln());
+            let at = crossing(a, b);
+            const STEP: f64 = 1e-4;
+            let nudges = [
+                (crossing(a + STEP, b), crossing(a - STEP, b)),
+                (crossing(a, b + STEP), crossing(a, b - STEP)),
+            ];
+            for (p, (up, down)) in nudges.iter().enumerate() {
+                let d_ln_xi = (up.crossing.ln_xi - down.crossing.ln_xi) / (2.0 * STEP);
+                let d_m = (up.crossing.m - down.crossing.m) / (2.0 * STEP);
+                assert_relative_eq!(at.d_ln_xi[p], d_ln_xi, max_relative = tolerance);
+                assert_relative_eq!(at.d_m[p], d_m, max_relative = tolerance);
+            }
+        }
+    }
+}
+
+/// Tabulated gas + disk masses with kinks at every radius (Msun within kpc).
+fn kinked_table() -> crate::baryons::BaryonTable {
+    crate::baryons::BaryonTable::from_signed_mass(
+        vec![0.3, 0.8, 1.5, 2.5, 4.0, 6.0, 9.0],
+        vec![2e7, 2.2e8, 8e8, 1.9e9, 3.1e9, 3.9e9, 4.2e9],
+    )
+    .expect("valid table")
+}
