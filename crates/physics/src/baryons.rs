@@ -15,6 +15,8 @@
 //!   ([`EnclosedMass::enclosed_mass_msun`]), while the signed value is kept for the model's
 //!   circular velocity ([`BaryonTable::v_squared_kms2`]).
 
+use std::cell::Cell;
+
 use crate::PhysicsError;
 use crate::error::{require_non_negative, require_positive};
 use crate::special::freeman_bessel_factor;
@@ -43,6 +45,23 @@ pub trait EnclosedMass: Send + Sync {
             - self.enclosed_mass_msun(radius_kpc - step))
             / (2.0 * step);
         (self.enclosed_mass_msun(radius_kpc), slope)
+    }
+
+    /// [`EnclosedMass::enclosed_mass_msun`] for a caller that walks through radii in order (the
+    /// Jeans integration): `cursor` carries a position between calls, so that a table steps from
+    /// it instead of searching. The same value as without it; the default ignores it.
+    fn enclosed_mass_walking(&self, radius_kpc: f64, _cursor: &Cell<usize>) -> f64 {
+        self.enclosed_mass_msun(radius_kpc)
+    }
+
+    /// [`EnclosedMass::enclosed_mass_and_slope`] with a cursor, as
+    /// [`EnclosedMass::enclosed_mass_walking`].
+    fn enclosed_mass_and_slope_walking(
+        &self,
+        radius_kpc: f64,
+        _cursor: &Cell<usize>,
+    ) -> (f64, f64) {
+        self.enclosed_mass_and_slope(radius_kpc)
     }
 }
 
@@ -276,11 +295,12 @@ impl BaryonTable {
     /// module documentation, in Msun.
     #[must_use]
     pub fn signed_mass_msun(&self, radius_kpc: f64) -> f64 {
-        self.signed_mass_and_slope(radius_kpc).0
+        self.signed_mass_and_slope(radius_kpc, None).0
     }
 
-    /// [`BaryonTable::signed_mass_msun`] and its derivative in radius (Msun/kpc).
-    fn signed_mass_and_slope(&self, radius_kpc: f64) -> (f64, f64) {
+    /// [`BaryonTable::signed_mass_msun`] and its derivative in radius (Msun/kpc). With a
+    /// `cursor` (the last interval's upper index), the interval is found by stepping from it.
+    fn signed_mass_and_slope(&self, radius_kpc: f64, cursor: Option<&Cell<usize>>) -> (f64, f64) {
         let radii = &self.radii_kpc;
         let masses = &self.signed_mass_msun;
         let n = radii.len();
@@ -291,7 +311,21 @@ impl BaryonTable {
         if radius_kpc >= radii[n - 1] {
             return (masses[n - 1], 0.0);
         }
-        let upper = radii.partition_point(|&r| r < radius_kpc);
+        // The first radius ≥ r (1 ≤ upper ≤ n − 1 here).
+        let upper = match cursor {
+            Some(cursor) => {
+                let mut upper = cursor.get().clamp(1, n - 1);
+                while radii[upper] < radius_kpc {
+                    upper += 1;
+                }
+                while radii[upper - 1] >= radius_kpc {
+                    upper -= 1;
+                }
+                cursor.set(upper);
+                upper
+            }
+            None => radii.partition_point(|&r| r < radius_kpc),
+        };
         let lower = upper - 1;
         let width = radii[upper] - radii[lower];
         let w = (radius_kpc - radii[lower]) / width;
@@ -472,18 +506,30 @@ impl EnclosedMass for BaryonTable {
     /// The slope of the interpolant itself (one-sided at a tabulated radius: the one of the
     /// interval below it), zero where the mass is clamped at 0.
     fn enclosed_mass_and_slope(&self, radius_kpc: f64) -> (f64, f64) {
-        let (mass, slope) = self.signed_mass_and_slope(radius_kpc);
-        if mass > 0.0 {
-            (mass, slope)
-        } else {
-            (0.0, 0.0)
-        }
+        clamped_at_zero(self.signed_mass_and_slope(radius_kpc, None))
+    }
+    fn enclosed_mass_walking(&self, radius_kpc: f64, cursor: &Cell<usize>) -> f64 {
+        self.signed_mass_and_slope(radius_kpc, Some(cursor))
+            .0
+            .max(0.0)
+    }
+    fn enclosed_mass_and_slope_walking(&self, radius_kpc: f64, cursor: &Cell<usize>) -> (f64, f64) {
+        clamped_at_zero(self.signed_mass_and_slope(radius_kpc, Some(cursor)))
     }
     fn inner_scale_kpc(&self) -> f64 {
         self.radii_kpc[0]
     }
     fn is_massless(&self) -> bool {
         self.signed_mass_msun.iter().all(|&m| m <= 0.0)
+    }
+}
+
+/// A signed mass and its slope, both zero where the mass is not positive.
+fn clamped_at_zero((mass, slope): (f64, f64)) -> (f64, f64) {
+    if mass > 0.0 {
+        (mass, slope)
+    } else {
+        (0.0, 0.0)
     }
 }
 
@@ -502,6 +548,15 @@ impl EnclosedMass for ScaledMass<'_> {
         let (mass, slope) = self.inner.enclosed_mass_and_slope(radius_kpc);
         (self.factor * mass, self.factor * slope)
     }
+    fn enclosed_mass_walking(&self, radius_kpc: f64, cursor: &Cell<usize>) -> f64 {
+        self.factor * self.inner.enclosed_mass_walking(radius_kpc, cursor)
+    }
+    fn enclosed_mass_and_slope_walking(&self, radius_kpc: f64, cursor: &Cell<usize>) -> (f64, f64) {
+        let (mass, slope) = self
+            .inner
+            .enclosed_mass_and_slope_walking(radius_kpc, cursor);
+        (self.factor * mass, self.factor * slope)
+    }
     fn inner_scale_kpc(&self) -> f64 {
         self.inner.inner_scale_kpc()
     }
@@ -514,6 +569,54 @@ impl EnclosedMass for ScaledMass<'_> {
 mod tests {
     use super::*;
     use approx::assert_relative_eq;
+
+    #[test]
+    fn walking_lookups_equal_searched_ones_and_slopes_match_differences() {
+        // The cursor changes the cost, never the value: outward, inward and scattered radii, at
+        // and between tabulated radii, inside the first and beyond the last. Slopes against
+        // central differences away from the kinks.
+        let table = BaryonTable::from_signed_mass(
+            vec![0.3, 0.8, 1.5, 2.5, 4.0, 6.0, 9.0],
+            vec![2e7, 2.2e8, -1e7, 1.9e9, 3.1e9, 3.9e9, 4.2e9],
+        )
+        .expect("valid");
+        let outward: Vec<f64> = (0..400).map(|i| 0.025 * f64::from(i)).collect();
+        let inward: Vec<f64> = outward.iter().rev().copied().collect();
+        let scattered: Vec<f64> = (0..400)
+            .map(|i| 10.0 * ((f64::from(i) * 0.618_034) % 1.0))
+            .chain([0.3, 0.8, 9.0, 2.5])
+            .collect();
+        for radii in [&outward, &inward, &scattered] {
+            let cursor = Cell::new(0);
+            for &r in radii.iter() {
+                assert_eq!(
+                    table.enclosed_mass_walking(r, &cursor).to_bits(),
+                    table.enclosed_mass_msun(r).to_bits(),
+                    "r = {r}"
+                );
+                assert_eq!(
+                    table.enclosed_mass_and_slope_walking(r, &cursor),
+                    table.enclosed_mass_and_slope(r),
+                    "r = {r}"
+                );
+            }
+        }
+        let bulge = Hernquist::new(3e9, 1.5).expect("valid");
+        for r in [0.1, 0.55, 1.2, 3.3, 7.0, 12.0] {
+            for mass in [&table as &dyn EnclosedMass, &bulge] {
+                let step = 1e-6;
+                let difference = (mass.enclosed_mass_msun(r + step)
+                    - mass.enclosed_mass_msun(r - step))
+                    / (2.0 * step);
+                assert_relative_eq!(
+                    mass.enclosed_mass_and_slope(r).1,
+                    difference,
+                    max_relative = 1e-6,
+                    epsilon = 1e-3
+                );
+            }
+        }
+    }
 
     #[test]
     fn exponential_disk_matches_scipy_values() {

@@ -17,6 +17,7 @@
 //! singular at ξ = 0. Accuracy is checked against the adaptive Dormand–Prince oracle in
 //! [`crate::ode::integrate_adaptive`] (see the tests below).
 
+use std::cell::Cell;
 use std::f64::consts::PI;
 
 use crate::PhysicsError;
@@ -53,6 +54,8 @@ pub(crate) struct JeansProblem<'a> {
     baryons: &'a dyn EnclosedMass,
     has_baryons: bool,
     step_ln_xi: f64,
+    /// Where the last baryonic mass was looked up (see [`EnclosedMass::enclosed_mass_walking`]).
+    cursor: Cell<usize>,
 }
 
 /// Where the profile reaches a given ψ.
@@ -83,6 +86,7 @@ impl<'a> JeansProblem<'a> {
             baryons,
             has_baryons: !baryons.is_massless(),
             step_ln_xi: STEP_LN_XI,
+            cursor: Cell::new(0),
         }
     }
 
@@ -94,7 +98,9 @@ impl<'a> JeansProblem<'a> {
     #[inline]
     fn baryon_mass(&self, xi: f64) -> f64 {
         if self.has_baryons {
-            self.baryons.enclosed_mass_msun(self.core_scale_kpc * xi) / self.mass_unit_msun
+            self.baryons
+                .enclosed_mass_walking(self.core_scale_kpc * xi, &self.cursor)
+                / self.mass_unit_msun
         } else {
             0.0
         }
@@ -165,7 +171,9 @@ impl<'a> JeansProblem<'a> {
     fn baryon_mass_and_log_slope(&self, xi: f64) -> (f64, f64) {
         if self.has_baryons {
             let r = self.core_scale_kpc * xi;
-            let (mass, slope) = self.baryons.enclosed_mass_and_slope(r);
+            let (mass, slope) = self
+                .baryons
+                .enclosed_mass_and_slope_walking(r, &self.cursor);
             (mass / self.mass_unit_msun, r * slope / self.mass_unit_msun)
         } else {
             (0.0, 0.0)
