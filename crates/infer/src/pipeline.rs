@@ -109,6 +109,9 @@ pub struct Straightening {
     /// measured there looks short.
     pub min_refits: usize,
     pub max_refits: usize,
+    /// The main run restarts with a map refitted to its samples while a check in its first half
+    /// shows τ above this many steps (at most `max_refits` times).
+    pub restart_tau_steps: f64,
     /// The pilot and the first adaptation runs sample the posterior raised to these powers β < 1
     /// (then β = 1): a flattened posterior spreads along the whole ridge within a few hundred
     /// steps, so the map covers its tails before the runs at β = 1 refine it.
@@ -133,6 +136,7 @@ impl Straightening {
             range_tolerance: 0.05,
             min_refits: 3,
             max_refits: 8,
+            restart_tau_steps: 75.0,
             betas: vec![0.2, 0.2, 0.45],
         }
     }
@@ -346,7 +350,7 @@ pub fn sample_straightened<D: LogDensity, O: Observer>(
                 offset: done,
                 cap,
             },
-            refit_tau_steps: straightening.refit_tau_steps,
+            restart_tau_steps: straightening.restart_tau_steps,
             allowed: restart < straightening.max_refits,
             until_step: remaining / 2,
             stopped: false,
@@ -378,7 +382,7 @@ pub fn sample_straightened<D: LogDensity, O: Observer>(
 /// [`sample_straightened`]); a stop asked by the user's observer passes through as a stop.
 struct LongTauWatch<'o, O> {
     observer: Offset<'o, O>,
-    refit_tau_steps: f64,
+    restart_tau_steps: f64,
     allowed: bool,
     until_step: usize,
     stopped: bool,
@@ -393,7 +397,7 @@ impl<O: Observer> Observer for LongTauWatch<'_, O> {
             && progress.step <= self.until_step
             && progress
                 .tau_max
-                .is_some_and(|tau| tau > self.refit_tau_steps)
+                .is_some_and(|tau| tau > self.restart_tau_steps)
         {
             self.stopped = true;
             return Control::Stop;
