@@ -20,29 +20,36 @@ n = int(sys.argv[1])
 rng = random.Random(20261203)
 def log_uniform(lo, hi):
     return math.exp(rng.uniform(math.log(lo), math.log(hi)))
+# Per class: V200 (km/s), c200, σ/m (cm²/g), gas and stellar-disk mass (Msun) and scale (kpc),
+# bulge mass (Msun; None for none) and scale (kpc), radii (kpc), points, distance and its error (Mpc).
+classes = {
+    "dwarf": dict(v200=(35, 70), c200=(8, 18), sigma_m=(0.3, 20), gas=(1e8, 8e8), gas_scale=(1.0, 2.5),
+                  disk=(2e7, 3e8), disk_scale=(0.5, 1.2), bulge=None, r_min=0.2, r_max=(3, 7),
+                  points=(8, 16), distance=(3, 12), distance_err=0.5),
+    "lsb": dict(v200=(70, 130), c200=(5, 12), sigma_m=(0.3, 20), gas=(1e9, 5e9), gas_scale=(4, 8),
+                disk=(5e8, 5e9), disk_scale=(2.5, 5), bulge=None, r_min=0.5, r_max=(12, 25),
+                points=(12, 22), distance=(15, 60), distance_err=2),
+    "spiral": dict(v200=(150, 250), c200=(6, 12), sigma_m=(0.1, 5), gas=(3e9, 1e10), gas_scale=(6, 10),
+                   disk=(2e10, 7e10), disk_scale=(2.5, 4.5), bulge=((8e9, 3e10), (0.4, 1.0)),
+                   r_min=0.5, r_max=(20, 35), points=(18, 30), distance=(10, 40), distance_err=1.5),
+}
 rows = []
-for i in range(n):
-    v200 = rng.uniform(35, 70)
-    rows.append(("dwarf", i, v200, log_uniform(8, 18), log_uniform(0.3, 20),
-                 f"--gas-mass {log_uniform(1e8, 8e8):.4g} --gas-scale {rng.uniform(1.0, 2.5):.3g} "
-                 f"--disk-mass {log_uniform(2e7, 3e8):.4g} --disk-scale {rng.uniform(0.5, 1.2):.3g} "
-                 f"--bulge-mass 0 --r-min 0.2 --r-max {rng.uniform(3, 7):.3g} --points {rng.randint(8, 16)} "
-                 f"--distance {rng.uniform(3, 12):.3g} --distance-err 0.5"))
-for i in range(n):
-    v200 = rng.uniform(70, 130)
-    rows.append(("lsb", i, v200, log_uniform(5, 12), log_uniform(0.3, 20),
-                 f"--gas-mass {log_uniform(1e9, 5e9):.4g} --gas-scale {rng.uniform(4, 8):.3g} "
-                 f"--disk-mass {log_uniform(5e8, 5e9):.4g} --disk-scale {rng.uniform(2.5, 5):.3g} "
-                 f"--bulge-mass 0 --r-min 0.5 --r-max {rng.uniform(12, 25):.3g} --points {rng.randint(12, 22)} "
-                 f"--distance {rng.uniform(15, 60):.3g} --distance-err 2"))
-for i in range(n):
-    v200 = rng.uniform(150, 250)
-    rows.append(("spiral", i, v200, log_uniform(6, 12), log_uniform(0.1, 5),
-                 f"--gas-mass {log_uniform(3e9, 1e10):.4g} --gas-scale {rng.uniform(6, 10):.3g} "
-                 f"--disk-mass {log_uniform(2e10, 7e10):.4g} --disk-scale {rng.uniform(2.5, 4.5):.3g} "
-                 f"--bulge-mass {log_uniform(8e9, 3e10):.4g} --bulge-scale {rng.uniform(0.4, 1.0):.3g} "
-                 f"--r-min 0.5 --r-max {rng.uniform(20, 35):.3g} --points {rng.randint(18, 30)} "
-                 f"--distance {rng.uniform(10, 40):.3g} --distance-err 1.5"))
+for kind, c in classes.items():
+    for i in range(n):
+        v200 = rng.uniform(*c["v200"])
+        c200, sigma_m = log_uniform(*c["c200"]), log_uniform(*c["sigma_m"])
+        # Drawn in the order the flags are written (the seed fixes the galaxies).
+        extra = (f"--gas-mass {log_uniform(*c['gas']):.4g} --gas-scale {rng.uniform(*c['gas_scale']):.3g} "
+                 f"--disk-mass {log_uniform(*c['disk']):.4g} --disk-scale {rng.uniform(*c['disk_scale']):.3g} ")
+        if c["bulge"]:
+            extra += (f"--bulge-mass {log_uniform(*c['bulge'][0]):.4g} "
+                      f"--bulge-scale {rng.uniform(*c['bulge'][1]):.3g} ")
+        else:
+            extra += "--bulge-mass 0 "
+        extra += (f"--r-min {c['r_min']} --r-max {rng.uniform(*c['r_max']):.3g} "
+                  f"--points {rng.randint(*c['points'])} --distance {rng.uniform(*c['distance']):.3g} "
+                  f"--distance-err {c['distance_err']}")
+        rows.append((kind, i, v200, c200, sigma_m, extra))
 for kind, i, v200, c200, sigma_m, extra in rows:
     print(f"Mock {kind} {i + 1:02d}|{v200:.4g}|{c200:.4g}|{sigma_m:.4g}|{extra}|{rng.randint(1, 10**6)}")
 PY

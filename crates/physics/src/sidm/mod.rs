@@ -405,25 +405,15 @@ fn outer_halo_of_core(
 }
 
 /// det ∂(ln M200, ln c200)/∂(ln ρ0, ln σ0) of the core-first map at (ρ0 Msun/kpc³, σ0 km/s), by
-/// forward differences; None when a nudged core has no NFW match.
-pub fn outer_halo_jacobian_det(setup: &SidmSetup, core: (f64, f64)) -> Option<f64> {
-    let (m200, c200) = outer_halo_of_core(setup, core.0, core.1).ok()?;
-    outer_halo_jacobian_det_at(setup, core, (m200, c200))
-}
-
-/// [`outer_halo_jacobian_det`] when the core's own (M200 Msun, c200) are known (from its
-/// [`core_first`] solve): two more integrations instead of three.
-pub fn outer_halo_jacobian_det_at(
-    setup: &SidmSetup,
-    (rho0, sigma0): (f64, f64),
-    (m200, c200): (f64, f64),
-) -> Option<f64> {
+/// forward differences (three integrations); None when a nudged core has no NFW match. The
+/// oracle for [`core_first_with_outer_jacobian`], which fits use.
+pub fn outer_halo_jacobian_det(setup: &SidmSetup, (rho0, sigma0): (f64, f64)) -> Option<f64> {
     const STEP: f64 = 1e-6;
     let outer = |rho0: f64, sigma0: f64| -> Option<(f64, f64)> {
         let (m200, c200) = outer_halo_of_core(setup, rho0, sigma0).ok()?;
         Some((m200.ln(), c200.ln()))
     };
-    let base = (m200.ln(), c200.ln());
+    let base = outer(rho0, sigma0)?;
     let by_rho0 = outer(rho0 * STEP.exp(), sigma0)?;
     let by_sigma0 = outer(rho0, sigma0 * STEP.exp())?;
     let (dm_dr, dc_dr) = ((by_rho0.0 - base.0) / STEP, (by_rho0.1 - base.1) / STEP);
@@ -444,10 +434,9 @@ pub fn lowest_density_core(
     validate_setup(setup)?;
     if let Some((rho0, sigma0)) = guess.filter(|g| g.0 > 0.0 && g.1 > 0.0)
         && let Some(root) = matching::polish(setup, nfw, (rho0, sigma0))
-        && let Ok(mut halo) = core_first(setup, root.0, root.1)
-        && before_second_fold(halo.core_contrast_ln)
-        && outer_halo_jacobian_det_at(setup, root, (halo.virial.m200_msun, halo.virial.c200))
-            .is_some_and(|det| det < 0.0)
+        && let Ok((mut halo, jacobian)) = core_first_with_outer_jacobian(setup, root.0, root.1)
+        && lowest_density_by_sheet(halo.core_contrast_ln, outer_jacobian_det(&jacobian))
+            == Some(true)
     {
         halo.branch = Some(0);
         return Ok(halo);
