@@ -453,6 +453,12 @@ impl CalderaApp {
                 "χ²/ν = {:.2} (best sample); halo age {:.1} Gyr",
                 result.chi2_nu, result.age_gyr
             ));
+            if result.tempered {
+                ui.label("sampled on a parallel-tempering ladder (separated SIDM branches)")
+                    .on_hover_text(
+                        "Every SIDM branch is admitted and more than one core matches the best-fitting outer halo within the bounds: the sample is the cold rung of a tempering ladder, whose hot rungs carry walkers between branches. τ below is that rung's.",
+                    );
+            }
             if result.converged {
                 ui.label(format!("converged (τ = {:.0} steps)", result.tau_max));
             } else {

@@ -12,7 +12,7 @@ use caldera_infer::priors::{
 use caldera_infer::sampler::{Control, Progress, RunConfig};
 use caldera_infer::summary::Interval;
 use caldera_infer::tempering::LadderConfig;
-use caldera_infer::{FitConfig, FitSummary, fit_galaxy};
+use caldera_infer::{FitConfig, FitSummary, Tempering, fit_galaxy};
 use caldera_physics::Cosmology;
 use caldera_physics::cosmology::DUTTON_MACCIO_SCATTER_DEX;
 use clap::{Args, ValueEnum};
@@ -45,6 +45,18 @@ pub enum BranchChoice {
     Lowest,
     /// Every matching core.
     All,
+}
+
+/// When the posterior is sampled by parallel tempering (see `caldera_infer::fit::Tempering`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum TemperingChoice {
+    /// Where the posterior has separated branches: an SIDM fit with --sidm-branches all whose
+    /// best-fitting outer halo has more than one matching core within the bounds.
+    Auto,
+    /// Never.
+    Off,
+    /// Always.
+    On,
 }
 
 /// The coordinates an SIDM fit samples in (see `caldera_infer::priors::SidmCoordinates`).
@@ -154,12 +166,19 @@ pub struct FitSettings {
     /// steps: tens of seconds per galaxy and model).
     #[arg(long)]
     pub evidence: bool,
-    /// Rungs of the tempering ladder for --evidence (the prior's rung included).
-    #[arg(long, default_value_t = LadderConfig::default().rungs, value_name = "N", requires = "evidence")]
+    /// Rungs of the tempering ladder for --evidence and --tempering (the prior's rung included).
+    #[arg(long, default_value_t = LadderConfig::default().rungs, value_name = "N")]
     pub evidence_rungs: usize,
-    /// Steps of the tempered run for --evidence (the first half adapts the ladder).
-    #[arg(long, default_value_t = LadderConfig::default().steps, value_name = "N", requires = "evidence")]
+    /// Steps of the tempered run for --evidence and --tempering (the first half adapts the
+    /// ladder).
+    #[arg(long, default_value_t = LadderConfig::default().steps, value_name = "N")]
     pub evidence_steps: usize,
+    /// Sample the posterior on a parallel-tempering ladder (its cold rung is the sample; ln Z
+    /// comes with it): auto turns it on where the SIDM posterior has separated branches within
+    /// the bounds (--sidm-branches all and several cores matching the best-fitting outer halo);
+    /// it costs the ladder's rungs × steps evaluations, tens of seconds per galaxy.
+    #[arg(long, value_enum, default_value_t = TemperingChoice::Auto)]
+    pub tempering: TemperingChoice,
     /// Sample the prior alone, without the data: the printed intervals then show what the priors
     /// imply (σ/m, V200, c200, M200, …), to check them before trusting a fit.
     #[arg(long)]
@@ -195,6 +214,11 @@ impl FitSettings {
                 "--sidm-coordinates halo samples one core per outer halo, the lowest-density one: it cannot be combined with --sidm-branches all"
             );
         }
+        let ladder = LadderConfig {
+            rungs: self.evidence_rungs,
+            steps: self.evidence_steps,
+            ..LadderConfig::default()
+        };
         let priors = Priors {
             cross_section: CrossSectionPrior {
                 logarithmic: self.sigma_prior == SigmaScale::Log,
@@ -234,11 +258,13 @@ impl FitSettings {
             age_gyr: self.age,
             prior_only: self.prior_only,
             straighten: !self.no_straighten,
-            evidence: self.evidence.then(|| LadderConfig {
-                rungs: self.evidence_rungs,
-                steps: self.evidence_steps,
-                ..LadderConfig::default()
-            }),
+            evidence: self.evidence.then_some(ladder),
+            tempering_ladder: Some(ladder),
+            tempering: match self.tempering {
+                TemperingChoice::Auto => Tempering::Auto,
+                TemperingChoice::Off => Tempering::Off,
+                TemperingChoice::On => Tempering::On,
+            },
             ..FitConfig::default()
         })
     }
@@ -404,5 +430,10 @@ pub(crate) fn text_summary(s: &FitSummary) -> String {
         "  {status}: tau_max {:.0} steps, {} steps x {} walkers, acceptance {:.2}, split R-hat {:.3}, {} evaluations\n",
         s.tau_max, s.n_steps, s.n_walkers, s.acceptance, s.rhat_max, s.n_evaluations
     ));
+    if s.tempered {
+        out.push_str(
+            "  sampled on a parallel-tempering ladder (separated SIDM branches within the bounds): tau and steps are its cold rung's\n",
+        );
+    }
     out
 }

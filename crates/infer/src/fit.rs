@@ -10,17 +10,19 @@ use rand_xoshiro::Xoshiro256PlusPlus;
 use serde::{Deserialize, Serialize};
 
 use crate::InferError;
-use crate::diagnostics::split_rhat;
+use crate::diagnostics::{integrated_autocorr_times, split_rhat};
 use crate::layout::ParamSpec;
 use crate::model::{DERIVED_NAMES, Derived, Evaluation, FailureSummary, GalaxyModel};
 use crate::optimize::maximum_a_posteriori;
 use crate::pipeline::{
     SamplingPlan, Straightening, bounded_interval, information_criteria, sample_straightened,
 };
-use crate::priors::Priors;
-use crate::sampler::{ChainStore, LogDensity, MoveMix, Observer, RunConfig};
+use crate::priors::{Priors, SidmBranches};
+use crate::sampler::{
+    ChainStore, EnsembleState, LogDensity, MoveMix, Observer, RunConfig, RunOutcome,
+};
 use crate::summary::{Interval, interval};
-use crate::tempering::{LadderConfig, evidence_after_run};
+use crate::tempering::{LadderConfig, evidence_after_run, run_tempered_observed};
 
 /// Everything that controls a fit (saved with a session).
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
@@ -50,6 +52,45 @@ pub struct FitConfig {
     /// ensemble samples the coordinates themselves (slower to mix on spirals; for comparison).
     #[serde(default = "straighten_by_default")]
     pub straighten: bool,
+    /// When to sample the posterior by parallel tempering ([`Tempering`]).
+    #[serde(default)]
+    pub tempering: Tempering,
+    /// The ladder of a tempered posterior run; None takes [`FitConfig::evidence`]'s ladder, or
+    /// else the default one.
+    #[serde(default)]
+    pub tempering_ladder: Option<LadderConfig>,
+}
+
+/// When the posterior sample comes from a parallel-tempering ladder ([`crate::tempering`])
+/// instead of the ensemble alone: a ladder's hot rungs carry walkers between modes that the
+/// stretch and differential-evolution moves cannot cross, at the cost of rungs × steps
+/// evaluations (with the default ladder, 16 × 4000 steps: about 40 s on one core for a demo
+/// galaxy).
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq, Serialize, Deserialize)]
+pub enum Tempering {
+    /// On where the posterior has separated branches within its bounds: an SIDM fit that admits
+    /// every branch ([`crate::priors::SidmBranches::All`]) whose MAP's outer halo is matched
+    /// by more than one core within the sampled (ρ0, σ0) bounds. Off otherwise — with the
+    /// lowest-density branch alone (the default) the SIDM posterior has one branch by
+    /// construction, and the closed-form halos have one solution per parameter set.
+    #[default]
+    Auto,
+    /// Never: the ensemble alone.
+    Off,
+    /// Always, for any model.
+    On,
+}
+
+impl Tempering {
+    /// Its command-line name.
+    #[must_use]
+    pub fn name(self) -> &'static str {
+        match self {
+            Self::Auto => "auto",
+            Self::Off => "off",
+            Self::On => "on",
+        }
+    }
 }
 
 fn straighten_by_default() -> bool {
@@ -70,6 +111,8 @@ impl Default for FitConfig {
             evidence: None,
             prior_only: false,
             straighten: true,
+            tempering: Tempering::Auto,
+            tempering_ladder: None,
         }
     }
 }
@@ -129,6 +172,10 @@ pub struct FitSummary {
     /// True for a prior-only run (no data in the density): its intervals describe the prior.
     #[serde(default)]
     pub prior_only: bool,
+    /// True when the posterior sample is the cold rung of a parallel-tempering ladder
+    /// ([`Tempering`]); τ and convergence then describe that rung.
+    #[serde(default)]
+    pub tempered: bool,
 }
 
 /// A finished fit: its summary, the kept samples and the best-fitting model curve.
@@ -185,6 +232,45 @@ pub fn fit_galaxy<O: Observer>(
         &straightening(&posterior, config.straighten),
         observer,
     )?;
+    let tempered = if outcome.cancelled
+        || !wants_tempering(config.tempering, &config.priors, &posterior, &map.theta)
+    {
+        None
+    } else {
+        let ladder = config
+            .tempering_ladder
+            .or(config.evidence)
+            .unwrap_or_default();
+        let initial: Vec<Vec<f64>> = outcome
+            .state
+            .walkers
+            .iter()
+            .map(|w| w.position.clone())
+            .collect();
+        Some(run_tempered_observed(
+            &posterior,
+            &config.moves,
+            &initial,
+            &ladder,
+            config.seed ^ 0x7e3b_e11d,
+            observer,
+        )?)
+    };
+    let (outcome, tempered_evidence) = match tempered {
+        Some(run) if !run.cancelled => (
+            cold_rung_outcome(&posterior, &run.cold, outcome.state, &config.run),
+            Some(run.evidence),
+        ),
+        // Stopped on the ladder: the ensemble's sample, marked as stopped.
+        Some(_) => (
+            RunOutcome {
+                cancelled: true,
+                ..outcome
+            },
+            None,
+        ),
+        None => (outcome, None),
+    };
     let burn_in = outcome.burn_in();
     let thin = outcome.thin();
     let chain = &outcome.chain;
@@ -233,13 +319,17 @@ pub fn fit_galaxy<O: Observer>(
     let rhat_max = split_rhat(chain, burn_in)
         .into_iter()
         .fold(f64::NAN, f64::max);
-    let evidence = evidence_after_run(
-        &posterior,
-        &config.moves,
-        &outcome,
-        config.evidence.as_ref(),
-        config.seed ^ 0x7e3b_e11d,
-    )?;
+    let is_tempered = tempered_evidence.is_some();
+    let evidence = match tempered_evidence {
+        Some(evidence) => Some(evidence),
+        None => evidence_after_run(
+            &posterior,
+            &config.moves,
+            &outcome,
+            config.evidence.as_ref(),
+            config.seed ^ 0x7e3b_e11d,
+        )?,
+    };
     let summary = FitSummary {
         galaxy: table.meta.name.clone(),
         model,
@@ -288,6 +378,7 @@ pub fn fit_galaxy<O: Observer>(
         log_evidence: evidence.as_ref().map(|e| e.log_evidence),
         log_evidence_err: evidence.as_ref().map(|e| e.log_evidence_err),
         prior_only: config.prior_only,
+        tempered: is_tempered,
     };
     Ok(FitResult {
         summary,
@@ -298,6 +389,66 @@ pub fn fit_galaxy<O: Observer>(
         best_theta,
         best,
     })
+}
+
+/// Whether `choice` puts this fit on a parallel-tempering ladder ([`Tempering::Auto`]: an SIDM
+/// posterior admitting every branch whose MAP's outer halo has more than one core in bounds).
+fn wants_tempering(
+    choice: Tempering,
+    priors: &Priors,
+    posterior: &GalaxyModel,
+    map_theta: &[f64],
+) -> bool {
+    match choice {
+        Tempering::Off => false,
+        Tempering::On => true,
+        Tempering::Auto => {
+            priors.sidm_branches == SidmBranches::All
+                && posterior
+                    .sidm_branches_within_bounds(map_theta)
+                    .is_some_and(|n| n > 1)
+        }
+    }
+}
+
+/// The cold rung of a tempered run as a run outcome: its positions with the model's derived
+/// quantities (the ladder records only ln p and ln L, so each position is evaluated again), τ
+/// from the whole rung (the ladder's adaptation half is already dropped) and converged when the
+/// rung is longer than `run.tau_factor` autocorrelation times. `state` is the ensemble the
+/// ladder started from, kept for its acceptance fraction.
+fn cold_rung_outcome(
+    posterior: &GalaxyModel,
+    cold: &ChainStore,
+    state: EnsembleState,
+    run: &RunConfig,
+) -> RunOutcome {
+    let dim = posterior.dim();
+    let mut chain = ChainStore::new(cold.n_walkers, dim, posterior.n_derived());
+    let mut derived = vec![f64::NAN; posterior.n_derived()];
+    for step in 0..cold.steps() {
+        let walkers: Vec<(Vec<f64>, f64, Vec<f64>)> = (0..cold.n_walkers)
+            .map(|w| {
+                let position: Vec<f64> = (0..dim).map(|p| cold.position(step, w, p)).collect();
+                derived.fill(f64::NAN);
+                let log_density = posterior.log_density(&position, &mut derived);
+                (position, log_density, derived.clone())
+            })
+            .collect();
+        chain.record_step(
+            walkers
+                .iter()
+                .map(|(p, l, d)| (p.as_slice(), *l, d.as_slice())),
+        );
+    }
+    let tau = integrated_autocorr_times(&chain, 0);
+    let tau_max = tau.iter().copied().fold(f64::NAN, f64::max);
+    RunOutcome {
+        converged: tau_max.is_finite() && chain.steps() as f64 > run.tau_factor * tau_max,
+        chain,
+        state,
+        tau,
+        cancelled: false,
+    }
 }
 
 /// How the sampler straightens this posterior ([`crate::reparam`]): when σ/m is sampled with

@@ -36,4 +36,4 @@ pub mod summary;
 pub mod tempering;
 
 pub use error::InferError;
-pub use fit::{FitConfig, FitResult, FitSummary, fit_galaxy};
+pub use fit::{FitConfig, FitResult, FitSummary, Tempering, fit_galaxy};

@@ -563,6 +563,45 @@ impl GalaxyModel {
         self.layout.ln_prior(theta) + self.outer_halo_log_prior(theta, derived, halo)
     }
 
+    /// For an SIDM fit: how many SIDM cores match the outer halo at θ within the sampled
+    /// (ρ0, σ0) bounds — every halo-first solution at θ's σ/m and nuisances, counted when its
+    /// core lies within the bounds. More than one means the posterior admits separated branches
+    /// when [`SidmBranches::All`] is chosen (in core coordinates the branches meet only where
+    /// the prior's Jacobian vanishes). None for other models or when the outer halo at θ cannot
+    /// be built or solved.
+    #[must_use]
+    pub fn sidm_branches_within_bounds(&self, theta: &[f64]) -> Option<usize> {
+        if self.model != HaloModel::Sidm {
+            return None;
+        }
+        let (_, derived) = self.evaluate(theta).ok()?;
+        let values = self.layout.values(theta);
+        let baryons = self.baryons_at_values(&values).ok()?;
+        let setup = SidmSetup {
+            cross_section: CrossSection::constant(values.get(ParamId::SigmaM)?).ok()?,
+            age_gyr: self.age_gyr,
+            baryons: &baryons,
+            cosmology: self.cosmology,
+        };
+        let nfw = Nfw::from_m200_c200(
+            derived[Derived::M200 as usize],
+            derived[Derived::C200 as usize],
+            &self.cosmology,
+        )
+        .ok()?;
+        let cores = caldera_physics::sidm::halo_first_all(&setup, &nfw).ok()?;
+        let bounds = &self.priors.halo;
+        Some(
+            cores
+                .iter()
+                .filter(|core| {
+                    log10_within(core.rho0_msun_kpc3(), bounds.log10_rho0)
+                        && log10_within(core.sigma0_kms(), bounds.log10_sigma0)
+                })
+                .count(),
+        )
+    }
+
     /// Whether an SIDM core lies within the (ρ0, σ0) bounds. Sampling the outer halo, these
     /// bounds still truncate the prior, so that it is the same whichever coordinates are sampled.
     fn core_within_bounds(&self, halo: &HaloDerived) -> bool {

@@ -22,7 +22,9 @@ use rand_xoshiro::Xoshiro256PlusPlus;
 
 use crate::InferError;
 use crate::diagnostics::{autocorrelation, integrated_time};
-use crate::sampler::{ChainStore, EnsembleState, LogDensity, Move, RunOutcome};
+use crate::sampler::{
+    ChainStore, Control, EnsembleState, LogDensity, Move, Observer, Progress, RunOutcome, Silent,
+};
 
 /// A posterior split into a prior and a likelihood: tempering raises only the likelihood. The
 /// prior need not be normalised — thermodynamic integration gives ln ∫ p L − ln ∫ p, the evidence
@@ -110,6 +112,9 @@ pub struct TemperedRun {
     /// The cold rung's (β = 1) chain over the second half: the posterior sample.
     pub cold: ChainStore,
     pub evidence: Evidence,
+    /// True when the observer stopped the run early (the chain and evidence are then partial
+    /// and not to be used).
+    pub cancelled: bool,
 }
 
 /// The evidence of `density` after a finished posterior run, the ladder starting from the run's
@@ -161,6 +166,19 @@ pub fn run_tempered<D: SplitDensity, M: Move>(
     config: &LadderConfig,
     seed: u64,
 ) -> Result<TemperedRun, InferError> {
+    run_tempered_observed(density, mv, initial, config, seed, &mut Silent)
+}
+
+/// [`run_tempered`], reporting the cold rung's progress to `observer` after every step (the
+/// step out of the ladder's steps, its acceptance; no τ) and stopping when it says so.
+pub fn run_tempered_observed<D: SplitDensity, M: Move, O: Observer>(
+    density: &D,
+    mv: &M,
+    initial: &[Vec<f64>],
+    config: &LadderConfig,
+    seed: u64,
+    observer: &mut O,
+) -> Result<TemperedRun, InferError> {
     if config.rungs < 3 {
         return Err(InferError::Config(format!(
             "parallel tempering needs at least 3 rungs (the prior's included), got {}",
@@ -197,6 +215,7 @@ pub fn run_tempered<D: SplitDensity, M: Move>(
     let mut proposed = vec![0u64; config.rungs - 1];
     let mut accepted = vec![0u64; config.rungs - 1];
     let mut cold = ChainStore::new(n_walkers, density.dim(), 2);
+    let mut cancelled = false;
     // ln L of every walker of every rung at every kept step, rung-major: [rung][step][walker].
     let mut kept_log_likelihood: Vec<Vec<Vec<f64>>> = vec![Vec::new(); config.rungs];
     for step in 0..config.steps {
@@ -255,6 +274,17 @@ pub fn run_tempered<D: SplitDensity, M: Move>(
                 kept.push(state.walkers.iter().map(|w| w.derived[1]).collect());
             }
         }
+        let progress = Progress {
+            step: step + 1,
+            max_steps: config.steps,
+            acceptance: rungs[0].acceptance_fraction(),
+            tau_max: None,
+            target_steps: None,
+        };
+        if observer.on_progress(&progress) == Control::Stop {
+            cancelled = true;
+            break;
+        }
     }
     let swap_acceptance = proposed
         .iter()
@@ -275,6 +305,7 @@ pub fn run_tempered<D: SplitDensity, M: Move>(
             mean_log_likelihood: means,
             swap_acceptance,
         },
+        cancelled,
     })
 }
 
