@@ -682,13 +682,13 @@ impl CalderaApp {
                 // beyond the data they become an edge label with their value.
                 let markers = [
                     (
-                        "r1 (each particle scattered once)",
+                        "r1, dashed (each particle scattered once)",
                         "r1",
                         c.r1_kpc,
                         egui_plot::LineStyle::dashed_loose(),
                     ),
                     (
-                        "core radius",
+                        "core radius r0, dotted",
                         "core radius",
                         c.core_radius_kpc,
                         egui_plot::LineStyle::dotted_dense(),
