@@ -1,11 +1,12 @@
 //! The default halo-first search against the exhaustive one it was cut down from (the oracle):
 //! over 3000 random halos with baryons (Hernquist bulges and tabulated gas + disk) and 1000
 //! without, both find the same solutions — every branch, in the same order, to 1e-6 — or both
-//! report none. Random halos: M200 10^9.5–10^12.5 Msun, c200 4–30, σ/m 0.05–50 cm²/g
+//! report none; and the lowest-density solve (`Branch::LowestDensity`, which skips the search
+//! when the sheet rule recognises a followed baryon-free core) returns the oracle's first. Random halos: M200 10^9.5–10^12.5 Msun, c200 4–30, σ/m 0.05–50 cm²/g
 //! (log-uniform), halo age 5–13 Gyr; bulges 10^7.5–10^10.5 Msun with scale 0.2–4 kpc.
 
 use caldera_physics::{
-    BaryonTable, BaryonVelocities, Cosmology, CrossSection, EnclosedMass, Hernquist, Nfw,
+    BaryonTable, BaryonVelocities, Branch, Cosmology, CrossSection, EnclosedMass, Hernquist, Nfw,
     NoBaryons, PhysicsError, Search, SidmHalo, SidmSetup, sidm,
 };
 use rand::SeedableRng;
@@ -43,6 +44,20 @@ fn solutions(
 fn agree(case: usize, setup: &SidmSetup, nfw: &Nfw, counts: &mut [usize; 4]) -> Result<(), String> {
     let fast = solutions(setup, nfw, Search::Fast);
     let oracle = solutions(setup, nfw, Search::Exhaustive);
+    // The lowest-density solve, which skips the search where the sheet rule recognises a
+    // followed baryon-free core, must return the oracle's lowest-density core.
+    let lowest = sidm::halo_first(setup, nfw, Branch::LowestDensity)
+        .map(|h| (h.rho0_msun_kpc3(), h.sigma0_kms()));
+    match (&lowest, oracle.as_ref().map(|all| all.first())) {
+        (Ok(x), Ok(Some(y)))
+            if (x.0 / y.0 - 1.0).abs() <= 1e-6 && (x.1 / y.1 - 1.0).abs() <= 1e-6 => {}
+        (Err(_), Err(_)) => {}
+        _ => {
+            return Err(format!(
+                "case {case}: lowest-density {lowest:?} vs the oracle's {oracle:?} ({setup:?}, {nfw:?})"
+            ));
+        }
+    }
     match (&fast, &oracle) {
         (Ok(a), Ok(b)) => {
             if a.len() != b.len() {

@@ -1,7 +1,7 @@
 //! Benchmarks of the hot paths every fit and every live curve update goes through:
 //! one core-first solve (alone, and with its outer-halo Jacobian from the variational
-//! equations against three solves for differences), one halo-first solve, and one full curve
-//! at 30 radii.
+//! equations against three solves for differences), one halo-first solve of the lowest-density
+//! core and one of every core (the full search), and one full curve at 30 radii.
 
 use std::hint::black_box;
 
@@ -63,6 +63,10 @@ fn benches(c: &mut Criterion) {
     c.bench_function("halo_first/table_baryons", |b| {
         let s = setup(&table);
         b.iter(|| sidm::halo_first(&s, black_box(&nfw), Branch::LowestDensity));
+    });
+    c.bench_function("halo_first_all/table_baryons", |b| {
+        let s = setup(&table);
+        b.iter(|| sidm::halo_first_all(&s, black_box(&nfw)));
     });
     c.bench_function("curve_30_radii/core_first_table_baryons", |b| {
         let s = setup(&table);
