@@ -3,8 +3,11 @@
 
 use std::sync::OnceLock;
 
-use super::jeans::{GridSolution, JeansProblem, SEARCH_STEP_LN_XI, STEP_LN_XI};
-use super::{Search, SidmSetup};
+use super::jeans::{
+    GridSolution, JeansProblem, LN_CORE_SCALE_SLOPES, LN_MASS_UNIT_SLOPES, SEARCH_STEP_LN_XI,
+    STEP_LN_XI,
+};
+use super::{Search, SidmSetup, ln_rate_density_slope};
 use crate::baryons::{EnclosedMass, NoBaryons, ScaledMass};
 use crate::halo::{HaloProfile, Nfw, nfw_mass_function};
 use crate::roots::brent;
@@ -15,8 +18,6 @@ use crate::{CrossSection, PhysicsError};
 const MAX_SCAN_XI: f64 = 1e4;
 /// Newton converges when both log-residuals are below this.
 const NEWTON_TOLERANCE: f64 = 1e-10;
-/// Forward-difference step in ln ρ0 and ln σ0 for the Jacobian.
-const JACOBIAN_STEP: f64 = 1e-7;
 
 /// Solves (1 + x)² f(x) / x² = `mass_ratio` for x = r1/r_s, where the left side is
 /// M_NFW(r1) / (4π r1³ ρ_NFW(r1)) and f is [`nfw_mass_function`]. It rises monotonically from
@@ -587,11 +588,63 @@ fn matching_residual(
     residual.iter().all(|v| v.is_finite()).then_some(residual)
 }
 
+/// ∂(matching residual)/∂(ln ρ0, ln σ0): row 0 the r1 residual, row 1 the M(r1) one.
+type MatchingJacobian = [[f64; 2]; 2];
+
+/// [`matching_residual`] at [`STEP_LN_XI`] with its Jacobian, from the variational equations of
+/// the Jeans integration (one integration instead of three for forward differences). The core's
+/// side: r1 = r_c ξ1 and M1 = M_u m(ξ1) with the crossing's derivatives; the target's side moves
+/// with σ0 alone, through ρ1(σ0): the NFW radius where the density is ρ1 moves by
+/// d ln r1 = d ln ρ1 / (d ln ρ_NFW/d ln r) and its mass by d ln M = (d ln M_NFW/d ln r) d ln r,
+/// with d ln ρ_NFW/d ln r = −(1 + 3x)/(1 + x) and d ln M/d ln r = 4π r³ ρ / M.
+fn matching_residual_and_jacobian(
+    setup: &SidmSetup,
+    nfw: &Nfw,
+    baryons: &dyn EnclosedMass,
+    u: [f64; 2],
+) -> Option<([f64; 2], MatchingJacobian)> {
+    let (rho0, sigma0) = (u[0].exp(), u[1].exp());
+    let rho1 = setup
+        .cross_section
+        .rate_density_msun_kpc3(sigma0, setup.age_gyr);
+    if rho1.is_nan() || rho1 >= rho0 {
+        return None;
+    }
+    let d_ln_rho1 = ln_rate_density_slope(setup, sigma0);
+    let problem = JeansProblem::new(rho0, sigma0, baryons);
+    let sensitive = problem
+        .integrate_with_sensitivity((rho0 / rho1).ln(), [1.0, -d_ln_rho1], None)
+        .ok()??;
+    let crossing = sensitive.crossing;
+    let r1 = problem.core_scale_kpc * crossing.ln_xi.exp();
+    let m1 = problem.mass_unit_msun * crossing.m;
+    let r1_target = nfw.radius_at_density_kpc(rho1);
+    let m1_target = nfw.enclosed_mass_msun(r1_target);
+    let residual = [(r1 / r1_target).ln(), (m1 / m1_target).ln()];
+    let x = r1_target / nfw.r_s_kpc;
+    let d_ln_r1_target = d_ln_rho1 / (-(1.0 + 3.0 * x) / (1.0 + x));
+    let d_ln_m1_target =
+        4.0 * std::f64::consts::PI * r1_target.powi(3) * rho1 / m1_target * d_ln_r1_target;
+    let mut jacobian = [[0.0; 2]; 2];
+    for p in 0..2 {
+        let by_sigma0 = if p == 1 { 1.0 } else { 0.0 };
+        jacobian[0][p] =
+            LN_CORE_SCALE_SLOPES[p] + sensitive.d_ln_xi[p] - by_sigma0 * d_ln_r1_target;
+        jacobian[1][p] =
+            LN_MASS_UNIT_SLOPES[p] + sensitive.d_m[p] / crossing.m - by_sigma0 * d_ln_m1_target;
+    }
+    let finite = residual
+        .iter()
+        .chain(jacobian.iter().flatten())
+        .all(|v| v.is_finite());
+    finite.then_some((residual, jacobian))
+}
+
 fn max_abs(v: [f64; 2]) -> f64 {
     v[0].abs().max(v[1].abs())
 }
 
-/// Damped Newton's method on the matching residual with a forward-difference Jacobian.
+/// Damped Newton's method on the matching residual, its Jacobian from the variational equations.
 fn newton(
     setup: &SidmSetup,
     nfw: &Nfw,
@@ -605,7 +658,8 @@ fn newton(
 /// Newton's method on the residual multiplied by Π_k (1 + 1/|u − u_k|²) over the known roots
 /// u_k (deflation, Farrell, Birkisson & Funke 2015): the known roots repel the iteration, so it
 /// can find a second root close to a first one (two solutions near a fold). Convergence is
-/// judged on the undeflated residual.
+/// judged on the undeflated residual. The deflated Jacobian is D J + F ∇Dᵀ with D the factor and
+/// ∇ ln D = Σ_k −2 (u − u_k) / (d_k⁴ + d_k²), d_k = |u − u_k|.
 fn deflated_newton(
     setup: &SidmSetup,
     nfw: &Nfw,
@@ -614,28 +668,41 @@ fn deflated_newton(
     max_iterations: usize,
     known: &[[f64; 2]],
 ) -> Option<[f64; 2]> {
-    let evaluate = |u: [f64; 2]| -> Option<([f64; 2], [f64; 2])> {
-        let raw = matching_residual(setup, nfw, baryons, u, STEP_LN_XI)?;
-        let factor: f64 = known
-            .iter()
-            .map(|k| 1.0 + 1.0 / ((u[0] - k[0]).powi(2) + (u[1] - k[1]).powi(2)))
-            .product();
-        Some((raw, [raw[0] * factor, raw[1] * factor]))
+    // (raw residual, deflated residual, deflated Jacobian) at u.
+    let evaluate = |u: [f64; 2]| -> Option<([f64; 2], [f64; 2], MatchingJacobian)> {
+        let (raw, jacobian) = matching_residual_and_jacobian(setup, nfw, baryons, u)?;
+        let mut factor = 1.0;
+        let mut grad_ln_factor = [0.0; 2];
+        for k in known {
+            let offset = [u[0] - k[0], u[1] - k[1]];
+            let d2 = offset[0] * offset[0] + offset[1] * offset[1];
+            factor *= 1.0 + 1.0 / d2;
+            for i in 0..2 {
+                grad_ln_factor[i] -= 2.0 * offset[i] / (d2 * d2 + d2);
+            }
+        }
+        let f = [raw[0] * factor, raw[1] * factor];
+        let mut deflated = [[0.0; 2]; 2];
+        for i in 0..2 {
+            for j in 0..2 {
+                deflated[i][j] = factor * jacobian[i][j] + f[i] * grad_ln_factor[j];
+            }
+        }
+        Some((raw, f, deflated))
     };
     let mut u = start;
-    let (mut raw, mut f) = evaluate(u)?;
+    // A start that already solves the matching (a baryon-free root polished without baryons, a
+    // solution followed from the previous one) needs no Jacobian: one plain integration.
+    if known.is_empty()
+        && matching_residual(setup, nfw, baryons, u, STEP_LN_XI)
+            .is_some_and(|raw| max_abs(raw) < NEWTON_TOLERANCE)
+    {
+        return Some(u);
+    }
+    let (mut raw, mut f, mut jacobian) = evaluate(u)?;
     for _ in 0..max_iterations {
         if max_abs(raw) < NEWTON_TOLERANCE {
             return Some(u);
-        }
-        let mut jacobian = [[0.0; 2]; 2];
-        for j in 0..2 {
-            let mut shifted = u;
-            shifted[j] += JACOBIAN_STEP;
-            let (_, fj) = evaluate(shifted)?;
-            for i in 0..2 {
-                jacobian[i][j] = (fj[i] - f[i]) / JACOBIAN_STEP;
-            }
         }
         let det = jacobian[0][0] * jacobian[1][1] - jacobian[0][1] * jacobian[1][0];
         if !det.is_finite() || det.abs() < 1e-300 {
@@ -649,16 +716,19 @@ fn deflated_newton(
         if size > 0.5 {
             step = [step[0] * 0.5 / size, step[1] * 0.5 / size];
         }
+        // Backtracking to a 1/32 step: a Newton direction that does not reduce the residual by
+        // then is not leading to a root (each trial is a Jeans integration).
         let mut alpha = 1.0;
         let mut accepted = false;
-        for _ in 0..12 {
+        for _ in 0..6 {
             let trial = [u[0] + alpha * step[0], u[1] + alpha * step[1]];
-            if let Some((trial_raw, trial_f)) = evaluate(trial)
+            if let Some((trial_raw, trial_f, trial_jacobian)) = evaluate(trial)
                 && max_abs(trial_f) < max_abs(f)
             {
                 u = trial;
                 raw = trial_raw;
                 f = trial_f;
+                jacobian = trial_jacobian;
                 accepted = true;
                 break;
             }
@@ -680,16 +750,7 @@ const PARTNER_OFFSETS: [f64; 2] = [0.05, -0.05];
 /// When the matching Jacobian at `root` is nearly singular, the unit vector along which the
 /// residual changes least (its right singular vector for the smallest singular value).
 fn fold_direction(setup: &SidmSetup, nfw: &Nfw, root: [f64; 2]) -> Option<[f64; 2]> {
-    let f = matching_residual(setup, nfw, setup.baryons, root, STEP_LN_XI)?;
-    let mut jacobian = [[0.0; 2]; 2];
-    for j in 0..2 {
-        let mut shifted = root;
-        shifted[j] += JACOBIAN_STEP;
-        let fj = matching_residual(setup, nfw, setup.baryons, shifted, STEP_LN_XI)?;
-        for i in 0..2 {
-            jacobian[i][j] = (fj[i] - f[i]) / JACOBIAN_STEP;
-        }
-    }
+    let (_, jacobian) = matching_residual_and_jacobian(setup, nfw, setup.baryons, root)?;
     // Eigen-decomposition of JᵀJ = [[a, b], [b, c]].
     let [[p, q], [r, t]] = jacobian;
     let (a, b, c) = (p * p + r * r, p * q + r * t, q * q + t * t);
@@ -738,14 +799,26 @@ fn partners_of(setup: &SidmSetup, nfw: &Nfw, found: &[(f64, f64)]) -> Vec<(f64, 
 }
 
 /// Newton's method with the full baryons from `guess` = (ρ0, σ0).
-pub(super) fn polish(setup: &SidmSetup, nfw: &Nfw, guess: (f64, f64)) -> Option<(f64, f64)> {
-    let u = newton(setup, nfw, setup.baryons, [guess.0.ln(), guess.1.ln()], 12)?;
+pub(super) fn polish(
+    setup: &SidmSetup,
+    nfw: &Nfw,
+    guess: (f64, f64),
+    max_iterations: usize,
+) -> Option<(f64, f64)> {
+    let u = newton(
+        setup,
+        nfw,
+        setup.baryons,
+        [guess.0.ln(), guess.1.ln()],
+        max_iterations,
+    )?;
     Some((u[0].exp(), u[1].exp()))
 }
 
 /// Follows a baryon-free solution while the baryons are switched on (mass × λ, λ: 0 → 1),
-/// halving the λ step when Newton fails. Returns (ρ0, σ0) with the full baryons, or None when
-/// the branch ends (two solutions merge and vanish) before λ = 1.
+/// halving the λ step when Newton fails to converge within six iterations (from the previous
+/// step's root it takes two to four). Returns (ρ0, σ0) with the full baryons, or None when the
+/// branch ends (two solutions merge and vanish) before λ = 1.
 pub(super) fn follow_with_baryons(
     setup: &SidmSetup,
     nfw: &Nfw,
@@ -765,7 +838,7 @@ pub(super) fn follow_with_baryons(
             inner: setup.baryons,
             factor: target,
         };
-        if let Some(next) = newton(setup, nfw, &scaled, u, 12) {
+        if let Some(next) = newton(setup, nfw, &scaled, u, 6) {
             u = next;
             lambda = target;
             increment = (2.0 * increment).min(1.0);
@@ -783,6 +856,75 @@ pub(super) fn follow_with_baryons(
 mod tests {
     use super::*;
     use approx::assert_relative_eq;
+
+    #[test]
+    fn matching_jacobian_from_variational_equations_matches_differences() {
+        use crate::baryons::Hernquist;
+        use crate::cosmology::Cosmology;
+        let cosmology = Cosmology::default();
+        let nfw = Nfw::from_m200_c200(3e11, 9.0, &cosmology).expect("valid");
+        let bulge = Hernquist::new(5e9, 0.8).expect("valid");
+        let falling = CrossSection::FallOff {
+            sigma0_cm2_g: 5.0,
+            w_kms: 80.0,
+        };
+        let mut worst: f64 = 0.0;
+        for (baryons, cross_section) in [
+            (
+                &NoBaryons as &dyn EnclosedMass,
+                CrossSection::constant(2.0).expect("valid"),
+            ),
+            (&bulge, CrossSection::constant(2.0).expect("valid")),
+            (&bulge, falling),
+        ] {
+            let setup = SidmSetup {
+                cross_section,
+                age_gyr: 10.0,
+                baryons,
+                cosmology,
+            };
+            for u in [[17.5, 4.3], [18.2, 4.6], [19.5, 4.9], [21.0, 4.5]] {
+                let Some((residual, jacobian)) =
+                    matching_residual_and_jacobian(&setup, &nfw, baryons, u)
+                else {
+                    continue;
+                };
+                let plain = matching_residual(&setup, &nfw, baryons, u, STEP_LN_XI)
+                    .expect("the same residual");
+                assert!(
+                    residual
+                        .iter()
+                        .zip(&plain)
+                        .all(|(a, b)| a.to_bits() == b.to_bits()),
+                    "the residual itself, bit for bit: {residual:?} vs {plain:?}"
+                );
+                const H: f64 = 1e-5;
+                for j in 0..2 {
+                    let (mut up, mut down) = (u, u);
+                    up[j] += H;
+                    down[j] -= H;
+                    let (Some(a), Some(b)) = (
+                        matching_residual(&setup, &nfw, baryons, up, STEP_LN_XI),
+                        matching_residual(&setup, &nfw, baryons, down, STEP_LN_XI),
+                    ) else {
+                        continue;
+                    };
+                    for i in 0..2 {
+                        let difference = (a[i] - b[i]) / (2.0 * H);
+                        let error = (jacobian[i][j] - difference).abs() / (1.0 + difference.abs());
+                        worst = worst.max(error);
+                        assert!(
+                            error < 1e-5,
+                            "u {u:?}, ∂{i}/∂{j}: {} vs {difference}",
+                            jacobian[i][j]
+                        );
+                    }
+                }
+            }
+        }
+        println!("matching Jacobian: worst relative difference {worst:.1e}");
+        assert!(worst > 0.0, "some points were compared");
+    }
 
     #[test]
     fn mass_ratio_inversion_round_trips() {

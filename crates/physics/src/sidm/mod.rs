@@ -238,7 +238,7 @@ fn solve_core(
 
 /// d ln ρ1/d ln σ0 of the rate density: −1 for a constant σ/m (ρ1 ∝ 1/σ0), else a central
 /// difference.
-fn ln_rate_density_slope(setup: &SidmSetup, sigma0_kms: f64) -> f64 {
+pub(super) fn ln_rate_density_slope(setup: &SidmSetup, sigma0_kms: f64) -> f64 {
     if matches!(setup.cross_section, CrossSection::Constant { .. }) {
         return -1.0;
     }
@@ -362,7 +362,7 @@ pub fn halo_first_near(
     require_positive("central density guess [Msun/kpc3]", guess.0)?;
     require_positive("dispersion guess [km/s]", guess.1)?;
     let (rho0, sigma0) =
-        matching::polish(setup, nfw, guess).ok_or_else(|| PhysicsError::NoSolution {
+        matching::polish(setup, nfw, guess, 12).ok_or_else(|| PhysicsError::NoSolution {
             reason: "Newton's method from the previous solution did not converge".into(),
         })?;
     core_first(setup, rho0, sigma0)
@@ -462,9 +462,10 @@ pub fn outer_halo_jacobian_det(setup: &SidmSetup, (rho0, sigma0): (f64, f64)) ->
 
 /// The lowest-density core matching `nfw` (the same answer as [`halo_first`] with
 /// [`Branch::LowestDensity`]), found cheaply when `guess` = (ρ0, σ0) is a nearby core: Newton's
-/// method from the guess, its root kept when [`is_lowest_density_core`] recognises it from the
-/// core alone (first sheet, contrast below the baryon-free second fold); otherwise the full
-/// search. The guess changes the cost, not the answer.
+/// method from the guess (at most four iterations: a guess farther away than that costs more
+/// than following the baryon-free solution), its root kept when [`is_lowest_density_core`]
+/// recognises it from the core alone (first sheet, contrast below the baryon-free second fold);
+/// otherwise [`halo_first`]. The guess changes the cost, not the answer.
 pub fn lowest_density_core(
     setup: &SidmSetup,
     nfw: &Nfw,
@@ -472,7 +473,7 @@ pub fn lowest_density_core(
 ) -> Result<SidmHalo, PhysicsError> {
     validate_setup(setup)?;
     if let Some((rho0, sigma0)) = guess.filter(|g| g.0 > 0.0 && g.1 > 0.0)
-        && let Some(root) = matching::polish(setup, nfw, (rho0, sigma0))
+        && let Some(root) = matching::polish(setup, nfw, (rho0, sigma0), 4)
         && let Ok((mut halo, jacobian)) = core_first_with_outer_jacobian(setup, root.0, root.1)
         && lowest_density_by_sheet(halo.core_contrast_ln, outer_jacobian_det(&jacobian))
             == Some(true)
