@@ -453,6 +453,11 @@ impl CalderaApp {
                 "χ²/ν = {:.2} (best sample); halo age {:.1} Gyr",
                 result.chi2_nu, result.age_gyr
             ));
+            if let (Some(z), Some(e)) = (result.log_evidence, result.log_evidence_err) {
+                ui.label(format!("ln Z = {z:.2} ± {e:.2}")).on_hover_text(
+                    "The Bayesian evidence under the stated priors (thermodynamic integration over a parallel-tempering ladder). Only differences between models of the same galaxy mean something: Compare models shows ln Z and ln B side by side.",
+                );
+            }
             if result.tempered {
                 ui.label("sampled on a parallel-tempering ladder (separated SIDM branches)")
                     .on_hover_text(

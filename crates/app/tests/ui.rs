@@ -509,5 +509,16 @@ fn the_model_comparison_shows_the_evidence_when_asked() {
     let _ = harness.get_by_label("ln Z");
     let _ = harness.get_by_label("ln B vs best");
     let _ = harness.get_by_label("by ln B");
+    // The fit panel of the model in the controls (SIDM) says its own ln Z too, as a single fit
+    // with the box ticked would.
+    let sidm = harness
+        .state()
+        .fit_summary("Kiln D03", HaloModel::Sidm)
+        .expect("a fit");
+    let (z, e) = (
+        sidm.log_evidence.expect("ln Z"),
+        sidm.log_evidence_err.expect("its error"),
+    );
+    let _ = harness.get_by_label(&format!("ln Z = {z:.2} ± {e:.2}"));
     std::fs::remove_dir_all(&export).ok();
 }
