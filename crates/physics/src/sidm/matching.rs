@@ -816,9 +816,9 @@ pub(super) fn polish(
 }
 
 /// Follows a baryon-free solution while the baryons are switched on (mass × λ, λ: 0 → 1),
-/// halving the λ step when Newton fails to converge within six iterations (from the previous
-/// step's root it takes two to four). Returns (ρ0, σ0) with the full baryons, or None when the
-/// branch ends (two solutions merge and vanish) before λ = 1.
+/// halving the λ step when Newton fails to converge within six iterations (a failing step costs
+/// at most six Jacobian integrations before the smaller step is tried). Returns (ρ0, σ0) with the
+/// full baryons, or None when the branch ends (two solutions merge and vanish) before λ = 1.
 pub(super) fn follow_with_baryons(
     setup: &SidmSetup,
     nfw: &Nfw,
