@@ -816,8 +816,8 @@ pub(super) fn polish(
 }
 
 /// Follows a baryon-free solution while the baryons are switched on (mass × λ, λ: 0 → 1),
-/// halving the λ step when Newton fails to converge within six iterations (a failing step costs
-/// at most six Jacobian integrations before the smaller step is tried). Returns (ρ0, σ0) with the
+/// halving the λ step when Newton fails to converge within six iterations (each with at most six
+/// trial integrations) so that a failing step is abandoned early. Returns (ρ0, σ0) with the
 /// full baryons, or None when the branch ends (two solutions merge and vanish) before λ = 1.
 pub(super) fn follow_with_baryons(
     setup: &SidmSetup,
