@@ -458,6 +458,12 @@ impl CalderaApp {
                     "The Bayesian evidence under the stated priors (thermodynamic integration over a parallel-tempering ladder). Only differences between models of the same galaxy mean something: Compare models shows ln Z and ln B side by side.",
                 );
             }
+            if result.resampled_in_halo_coordinates {
+                ui.label("sampled again in outer-halo coordinates")
+                    .on_hover_text(
+                        "The chain in core coordinates (ρ0, σ0) ended unconverged at the step cap, so the same posterior was sampled again in the outer halo's coordinates (V200, c200), which mix far better where the core sits deep in the NFW cusp. τ below is that run's.",
+                    );
+            }
             if result.tempered {
                 ui.label("sampled on a parallel-tempering ladder (separated SIDM branches)")
                     .on_hover_text(

@@ -217,6 +217,9 @@ fn one_mock(index: usize, seed: u64, config: &FitConfig) -> Result<MockOutcome, 
     }
     let fit_config = FitConfig {
         seed: seed ^ (index as u64).wrapping_mul(0x2545_F491_4F6C_DD1D),
+        // The truth is placed among the chain's core coordinates, so the chain must stay in
+        // them: an unconverged chain is counted as such, not sampled again in halo coordinates.
+        halo_coordinates_fallback: false,
         ..*config
     };
     let result = fit_galaxy(&table, HaloModel::Sidm, &fit_config, &mut Silent)?;

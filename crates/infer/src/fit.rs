@@ -17,7 +17,7 @@ use crate::optimize::maximum_a_posteriori;
 use crate::pipeline::{
     SamplingPlan, Straightening, bounded_interval, information_criteria, sample_straightened,
 };
-use crate::priors::{Priors, SidmBranches};
+use crate::priors::{Priors, SidmBranches, SidmCoordinates};
 use crate::sampler::{
     ChainStore, EnsembleState, LogDensity, MoveMix, Observer, RunConfig, RunOutcome,
 };
@@ -59,6 +59,14 @@ pub struct FitConfig {
     /// else the default one.
     #[serde(default)]
     pub tempering_ladder: Option<LadderConfig>,
+    /// Sample an SIDM posterior again in outer-halo coordinates when the core coordinates end
+    /// unconverged ([`fit_galaxy`]).
+    #[serde(default = "yes")]
+    pub halo_coordinates_fallback: bool,
+}
+
+fn yes() -> bool {
+    true
 }
 
 /// When the posterior sample comes from a parallel-tempering ladder ([`crate::tempering`])
@@ -101,6 +109,7 @@ impl Default for FitConfig {
             straighten: true,
             tempering: Tempering::Auto,
             tempering_ladder: None,
+            halo_coordinates_fallback: true,
         }
     }
 }
@@ -164,6 +173,10 @@ pub struct FitSummary {
     /// ([`Tempering`]); τ and convergence then describe that rung.
     #[serde(default)]
     pub tempered: bool,
+    /// True when the core coordinates ended unconverged and the posterior was sampled again in
+    /// outer-halo coordinates ([`fit_galaxy`]); the sample, τ and convergence are that run's.
+    #[serde(default)]
+    pub resampled_in_halo_coordinates: bool,
 }
 
 /// A finished fit: its summary, the kept samples and the best-fitting model curve.
@@ -179,7 +192,50 @@ pub struct FitResult {
 }
 
 /// Fits `model` to `table`.
+///
+/// An SIDM fit sampled in core coordinates that ends unconverged at the step cap is sampled again
+/// in outer-halo coordinates ([`SidmCoordinates::Halo`]: the same posterior, checked point by
+/// point in `tests/outer_halo_prior.rs`), unless [`FitConfig::halo_coordinates_fallback`] is off.
+/// Why: the core coordinates fail where the posterior is a thin curved sliver in (ρ0, σ0) — a
+/// spiral at low σ/m, its core deep in the NFW cusp — while the outer halo's coordinates are
+/// nearly independent there (Kiln S02 under seeds 3 and 5: unconverged in core coordinates,
+/// τ = 42 and 44 steps in halo coordinates). They cost 15–20 times more per fit, so they are
+/// the fallback, not the default.
 pub fn fit_galaxy<O: Observer>(
+    table: &GalaxyTable,
+    model: HaloModel,
+    config: &FitConfig,
+    observer: &mut O,
+) -> Result<FitResult, InferError> {
+    let first = fit_galaxy_as_configured(table, model, config, observer)?;
+    let summary = &first.summary;
+    let falls_back = config.halo_coordinates_fallback
+        && model == HaloModel::Sidm
+        && config.priors.sidm_coordinates == SidmCoordinates::Core
+        && config.priors.sidm_branches == SidmBranches::LowestDensity
+        && !config.prior_only
+        && !summary.converged
+        && !summary.cancelled
+        && !summary.tempered;
+    if !falls_back {
+        return Ok(first);
+    }
+    let halo_config = FitConfig {
+        priors: Priors {
+            sidm_coordinates: SidmCoordinates::Halo,
+            ..config.priors
+        },
+        ..*config
+    };
+    let mut second = fit_galaxy_as_configured(table, model, &halo_config, observer)?;
+    second.summary.resampled_in_halo_coordinates = true;
+    // Both runs' likelihood evaluations count towards the fit's cost.
+    second.summary.n_evaluations += first.summary.n_evaluations;
+    Ok(second)
+}
+
+/// [`fit_galaxy`] in the coordinates `config` states, without the fallback.
+fn fit_galaxy_as_configured<O: Observer>(
     table: &GalaxyTable,
     model: HaloModel,
     config: &FitConfig,
@@ -367,6 +423,7 @@ pub fn fit_galaxy<O: Observer>(
         log_evidence_err: evidence.as_ref().map(|e| e.log_evidence_err),
         prior_only: config.prior_only,
         tempered: is_tempered,
+        resampled_in_halo_coordinates: false,
     };
     Ok(FitResult {
         summary,
