@@ -62,7 +62,7 @@ while IFS='|' read -r name v200 c200 sigma_m extra seed; do
         # shellcheck disable=SC2086 # `extra` holds several flags.
         if "$caldera" --quiet mock --name "$name" --halo sidm --v200 "$v200" --c200 "$c200" \
             --cross-section "$sigma_m" $extra --inclination 60 --inclination-err 3 \
-            --seed "$seed" --out "$file" 2>/dev/null; then
+            --seed "$seed" --out "$file" --force 2>/dev/null; then
             made=$((made + 1))
             break
         fi
@@ -85,8 +85,10 @@ for row in rows:
     tau = float(row["tau_max"])
     ok = row["converged"] == "True" and tau <= 100
     bad += not ok
+    again = row.get("resampled_in_halo_coordinates") == "True"
     print(f"{row['galaxy']:<16} tau_max {tau:7.1f}  converged {row['converged']:<5}  "
-          f"sigma/m median {float(row['sigma_m_median [cm2 / g]']):.3g} cm2/g  {'' if ok else '<-- fails'}")
+          f"sigma/m median {float(row['sigma_m_median [cm2 / g]']):.3g} cm2/g  "
+          f"{'(halo coordinates) ' if again else ''}{'' if ok else '<-- fails'}")
 print(f"{len(rows)} of {made} mocks fitted in {float(end) - float(start):.1f} s on {cores} cores; "
       f"{bad} unconverged or with tau_max > 100 steps")
 sys.exit(1 if bad or len(rows) != made else 0)

@@ -279,7 +279,7 @@ fn write_job(
         let model = GalaxyModel::new(
             job.table,
             job.model,
-            config.priors,
+            result.priors,
             config.cosmology,
             config.age_gyr,
         )?;

@@ -183,6 +183,10 @@ pub struct FitSummary {
 #[derive(Debug, Clone)]
 pub struct FitResult {
     pub summary: FitSummary,
+    /// The priors the sample was drawn under, its coordinates included (an SIDM fit sampled
+    /// again in outer-halo coordinates has [`SidmCoordinates::Halo`] here): a [`GalaxyModel`]
+    /// built with them reads `best_theta` and the chain's positions.
+    pub priors: Priors,
     pub parameters: Vec<ParamSpec>,
     pub chain: ChainStore,
     pub burn_in: usize,
@@ -414,7 +418,7 @@ fn fit_galaxy_as_configured<O: Observer>(
         seed: config.seed,
         age_gyr: posterior.age_gyr,
         best_fit: posterior
-            .values(&best_theta)
+            .values_with_core(&best_theta)
             .iter()
             .map(|(id, value)| (id.key().to_string(), value))
             .collect(),
@@ -427,6 +431,7 @@ fn fit_galaxy_as_configured<O: Observer>(
     };
     Ok(FitResult {
         summary,
+        priors: config.priors,
         parameters: posterior.parameters().to_vec(),
         chain: outcome.chain.clone(),
         burn_in,

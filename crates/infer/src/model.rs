@@ -8,7 +8,6 @@
 //! V_model² = V_halo²(r) + V_b²(r), with V_b² signed. A model that cannot be built (no isothermal
 //! core, no NFW match) has likelihood zero: ln p = −∞, and the reason is counted.
 
-use std::sync::Mutex;
 use std::sync::atomic::{AtomicU64, Ordering};
 
 use caldera_data::GalaxyTable;
@@ -99,9 +98,11 @@ pub struct GalaxyModel {
     /// Whether both of those coordinates are log10 of their parameters, so that a build's
     /// closed-form determinant in ln coordinates serves unchanged.
     outer_halo_in_log10: bool,
-    /// SIDM sampled in its outer halo: the last core found, where the next search starts (it
-    /// changes the cost of finding the lowest-density core, not the core found).
-    core_guess: Option<Mutex<Option<(f64, f64)>>>,
+    /// SIDM sampled in its outer halo: each evaluation finds the lowest-density core by a
+    /// halo-first solve. The solve starts from the inputs alone, not from the last core found
+    /// (which would hardly save time and would make the core, to Newton's tolerance, depend on
+    /// the order in which parallel walkers were evaluated: chains would not repeat bit for bit).
+    samples_outer_halo: bool,
     distance_mpc: Option<(f64, f64)>,
     inclination_deg: Option<(f64, f64)>,
     pub failures: FailureCounts,
@@ -286,7 +287,7 @@ impl GalaxyModel {
             has_bulge: table.v_bulge_kms.is_some(),
             outer_halo,
             outer_halo_in_log10,
-            core_guess: samples_outer_halo(model, &priors).then(|| Mutex::new(None)),
+            samples_outer_halo: samples_outer_halo(model, &priors),
             distance_mpc,
             inclination_deg,
             failures: FailureCounts::default(),
@@ -493,12 +494,10 @@ impl GalaxyModel {
         let built = if family.uses_baryons() {
             let baryons = self.rows.mass_model(distance_factor, v_baryon2_kms2)?;
             let context = self.halo_context(&baryons);
-            match &self.core_guess {
-                Some(guess) if values.get(ParamId::Rho0).is_none() => family.build(
-                    &self.with_lowest_density_core(values, &context, guess)?,
-                    &context,
-                )?,
-                _ => family.build(values, &context)?,
+            if self.samples_outer_halo && values.get(ParamId::Rho0).is_none() {
+                family.build(&self.with_lowest_density_core(values, &context)?, &context)?
+            } else {
+                family.build(values, &context)?
             }
         } else {
             let context = HaloContext {
@@ -523,12 +522,11 @@ impl GalaxyModel {
     }
 
     /// `values` (σ/m and the outer halo's V200, c200) completed with the lowest-density SIDM core
-    /// that matches them, found from the last core in `guess`.
+    /// that matches them.
     fn with_lowest_density_core(
         &self,
         values: &ParamValues,
         context: &HaloContext,
-        guess: &Mutex<Option<(f64, f64)>>,
     ) -> Result<ParamValues, PhysicsError> {
         let setup = SidmSetup {
             cross_section: CrossSection::constant(values.require(ParamId::SigmaM)?)?,
@@ -541,26 +539,43 @@ impl GalaxyModel {
             values.require(ParamId::C200)?,
             &context.cosmology,
         )?;
-        // A poisoned lock only loses the guess: the search then starts from scratch.
-        let start = guess.lock().map_or(None, |g| *g);
-        let core = caldera_physics::sidm::lowest_density_core(&setup, &nfw, start)?;
-        let found = (core.rho0_msun_kpc3(), core.sigma0_kms());
-        if let Ok(mut g) = guess.lock() {
-            *g = Some(found);
-        }
+        let core = caldera_physics::sidm::halo_first(
+            &setup,
+            &nfw,
+            caldera_physics::Branch::LowestDensity,
+        )?;
         let mut completed = *values;
-        completed.set(ParamId::Rho0, found.0);
-        completed.set(ParamId::Sigma0, found.1);
+        completed.set(ParamId::Rho0, core.rho0_msun_kpc3());
+        completed.set(ParamId::Sigma0, core.sigma0_kms());
         Ok(completed)
     }
 
     /// ln prior at θ (constants dropped): the layout's priors on the sampled coordinates plus
     /// the outer halo's ([`GalaxyModel::outer_halo_log_prior`]). `halo` is the halo built at θ.
     fn log_prior(&self, theta: &[f64], derived: &[f64], halo: &HaloDerived) -> f64 {
-        if self.core_guess.is_some() && !self.core_within_bounds(halo) {
+        if self.samples_outer_halo && !self.core_within_bounds(halo) {
             return f64::NEG_INFINITY;
         }
         self.layout.ln_prior(theta) + self.outer_halo_log_prior(theta, derived, halo)
+    }
+
+    /// The physical values at θ ([`GalaxyModel::values`]), completed with the SIDM core
+    /// (ρ0, σ0) that the outer halo's coordinates imply when those are sampled
+    /// ([`SidmCoordinates::Halo`]), so that a fit's best values name the core in either
+    /// coordinates (the app's "Use best fit" and the figures rebuild the halo from them).
+    #[must_use]
+    pub fn values_with_core(&self, theta: &[f64]) -> ParamValues {
+        let mut values = self.layout.values(theta);
+        if self.samples_outer_halo
+            && values.get(ParamId::Rho0).is_none()
+            && let Ok((_, _, built)) = self.evaluate_with_halo(&values)
+            && let (Some(rho0), Some(sigma0)) =
+                (built.derived.rho0_msun_kpc3, built.derived.sigma0_kms)
+        {
+            values.set(ParamId::Rho0, rho0);
+            values.set(ParamId::Sigma0, sigma0);
+        }
+        values
     }
 
     /// For an SIDM fit: how many SIDM cores match the outer halo at θ within the sampled

@@ -94,6 +94,12 @@ pub fn results_table(rows: &[ResultRow]) -> OutputTable {
                 .collect(),
         )
         .with_flag_column("converged", rows.iter().map(|r| r.converged).collect())
+        .with_flag_column(
+            "resampled_in_halo_coordinates",
+            rows.iter()
+                .map(|r| r.resampled_in_halo_coordinates)
+                .collect(),
+        )
         .with_column("tau_max", None, rows.iter().map(|r| r.tau_max).collect())
         .with_column("age", Some("Gyr"), rows.iter().map(|r| r.age_gyr).collect())
         .with_meta(
