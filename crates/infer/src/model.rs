@@ -562,7 +562,7 @@ impl GalaxyModel {
     /// The physical values at θ ([`GalaxyModel::values`]), completed with the SIDM core
     /// (ρ0, σ0) that the outer halo's coordinates imply when those are sampled
     /// ([`SidmCoordinates::Halo`]), so that a fit's best values name the core in either
-    /// coordinates (the app's "Use best fit" and the figures rebuild the halo from them).
+    /// coordinates (the app's "Use best fit" rebuilds the halo from them).
     #[must_use]
     pub fn values_with_core(&self, theta: &[f64]) -> ParamValues {
         let mut values = self.layout.values(theta);
