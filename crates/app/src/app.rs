@@ -446,6 +446,8 @@ impl CalderaApp {
                     .min(RunConfig::default().min_steps),
                 ..self.session.fit.run
             },
+            halo_coordinates_fallback: self.session.fit.halo_coordinates_fallback
+                && self.runtime.options.fit_halo_fallback,
             // The step cap holds for the evidence's tempered run too.
             evidence: self.session.fit.evidence.map(|ladder| LadderConfig {
                 steps: ladder.steps.min(self.runtime.options.fit_max_steps.max(4)),

@@ -46,6 +46,10 @@ pub struct AppOptions {
     pub export_dir: PathBuf,
     /// Step cap of fits started from the app.
     pub fit_max_steps: usize,
+    /// Whether an SIDM fit that ends unconverged in core coordinates is sampled again in
+    /// outer-halo coordinates (`FitConfig::halo_coordinates_fallback`; the session's setting
+    /// must allow it too).
+    pub fit_halo_fallback: bool,
 }
 
 impl Default for AppOptions {
@@ -55,6 +59,7 @@ impl Default for AppOptions {
             session: None,
             export_dir: PathBuf::from("caldera-exports"),
             fit_max_steps: RunConfig::default().max_steps,
+            fit_halo_fallback: true,
         }
     }
 }
