@@ -121,16 +121,38 @@ impl GalaxyPosterior {
                     ))
                 })
         };
-        let (sigma0, sigma_m) = (index(ParamId::Sigma0)?, index(ParamId::SigmaM)?);
+        let sigma_m = index(ParamId::SigmaM)?;
         let kept: Vec<(usize, usize)> = fit.chain.kept(fit.burn_in, fit.thin).collect();
         let column = |p: usize| -> Vec<f64> {
             kept.iter()
                 .map(|&(s, w)| fit.chain.position(s, w, p))
                 .collect()
         };
+        // Sampled in the core, log10 σ0 is a coordinate; sampled in the outer halo (asked for,
+        // or after the core coordinates ended unconverged), σ0 comes from the derived
+        // ⟨v_rel⟩ = 4σ0/√π, as for a run folder's chains.
+        let log10_sigma0: Vec<f64> = match index(ParamId::Sigma0) {
+            Ok(sigma0) => column(sigma0),
+            Err(missing) => {
+                if fit.summary.model != caldera_data::session::HaloModel::Sidm {
+                    return Err(missing);
+                }
+                kept.iter()
+                    .map(|&(s, w)| {
+                        let v_rel = fit
+                            .chain
+                            .derived(s, w, crate::model::Derived::VRel as usize);
+                        caldera_physics::cross_section::dispersion_from_mean_relative_speed_kms(
+                            v_rel,
+                        )
+                        .log10()
+                    })
+                    .collect()
+            }
+        };
         Self::from_chain(
             &fit.summary.galaxy,
-            &column(sigma0),
+            &log10_sigma0,
             &column(sigma_m),
             prior,
             max_samples,
