@@ -50,7 +50,7 @@ pub struct FitConfig {
     pub prior_only: bool,
     /// Straighten the SIDM posterior before sampling it ([`crate::reparam`]); off, the
     /// ensemble samples the coordinates themselves (slower to mix on spirals; for comparison).
-    #[serde(default = "straighten_by_default")]
+    #[serde(default = "on_by_default")]
     pub straighten: bool,
     /// When to sample the posterior by parallel tempering ([`Tempering`]).
     #[serde(default)]
@@ -61,12 +61,8 @@ pub struct FitConfig {
     pub tempering_ladder: Option<LadderConfig>,
     /// Sample an SIDM posterior again in outer-halo coordinates when the core coordinates end
     /// unconverged ([`fit_galaxy`]).
-    #[serde(default = "yes")]
+    #[serde(default = "on_by_default")]
     pub halo_coordinates_fallback: bool,
-}
-
-fn yes() -> bool {
-    true
 }
 
 /// When the posterior sample comes from a parallel-tempering ladder ([`crate::tempering`])
@@ -89,7 +85,8 @@ pub enum Tempering {
     On,
 }
 
-fn straighten_by_default() -> bool {
+/// The serde default of the switches that are on unless a saved session turned them off.
+fn on_by_default() -> bool {
     true
 }
 
@@ -289,16 +286,10 @@ fn fit_galaxy_as_configured<O: Observer>(
             .tempering_ladder
             .or(config.evidence)
             .unwrap_or_default();
-        let initial: Vec<Vec<f64>> = outcome
-            .state
-            .walkers
-            .iter()
-            .map(|w| w.position.clone())
-            .collect();
         Some(run_tempered_observed(
             &posterior,
             &config.moves,
-            &initial,
+            &outcome.final_positions(),
             &ladder,
             config.seed ^ 0x7e3b_e11d,
             observer,

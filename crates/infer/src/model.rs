@@ -605,13 +605,14 @@ impl GalaxyModel {
         )
         .ok()?;
         let cores = caldera_physics::sidm::halo_first_all(&setup, &nfw).ok()?;
-        let bounds = &self.priors.halo;
         Some(
             cores
                 .iter()
                 .filter(|core| {
-                    log10_within(core.rho0_msun_kpc3(), bounds.log10_rho0)
-                        && log10_within(core.sigma0_kms(), bounds.log10_sigma0)
+                    self.core_values_within_bounds(
+                        Some(core.rho0_msun_kpc3()),
+                        Some(core.sigma0_kms()),
+                    )
                 })
                 .count(),
         )
@@ -620,11 +621,19 @@ impl GalaxyModel {
     /// Whether an SIDM core lies within the (ρ0, σ0) bounds. Sampling the outer halo, these
     /// bounds still truncate the prior, so that it is the same whichever coordinates are sampled.
     fn core_within_bounds(&self, halo: &HaloDerived) -> bool {
+        self.core_values_within_bounds(halo.rho0_msun_kpc3, halo.sigma0_kms)
+    }
+
+    /// Whether a core (ρ0 Msun/kpc³, σ0 km/s), both known, lies within the (ρ0, σ0) bounds.
+    fn core_values_within_bounds(
+        &self,
+        rho0_msun_kpc3: Option<f64>,
+        sigma0_kms: Option<f64>,
+    ) -> bool {
         let bounds = &self.priors.halo;
         let inside =
             |value: Option<f64>, range| value.is_some_and(|v| v > 0.0 && log10_within(v, range));
-        inside(halo.rho0_msun_kpc3, bounds.log10_rho0)
-            && inside(halo.sigma0_kms, bounds.log10_sigma0)
+        inside(rho0_msun_kpc3, bounds.log10_rho0) && inside(sigma0_kms, bounds.log10_sigma0)
     }
 
     /// The outer halo's prior (log V200 uniform within bounds, log c200 normal around the

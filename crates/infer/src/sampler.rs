@@ -351,6 +351,17 @@ pub struct RunOutcome {
 }
 
 impl RunOutcome {
+    /// Where the walkers ended, one position each: where a following run (a tempering ladder)
+    /// starts.
+    #[must_use]
+    pub fn final_positions(&self) -> Vec<Vec<f64>> {
+        self.state
+            .walkers
+            .iter()
+            .map(|w| w.position.clone())
+            .collect()
+    }
+
     /// Largest τ, steps.
     #[must_use]
     pub fn tau_max(&self) -> f64 {

@@ -130,14 +130,8 @@ pub fn evidence_after_run<D: SplitDensity, M: Move>(
     let Some(ladder) = ladder.filter(|_| !outcome.cancelled) else {
         return Ok(None);
     };
-    let initial: Vec<Vec<f64>> = outcome
-        .state
-        .walkers
-        .iter()
-        .map(|w| w.position.clone())
-        .collect();
     Ok(Some(
-        run_tempered(density, mv, &initial, ladder, seed)?.evidence,
+        run_tempered(density, mv, &outcome.final_positions(), ladder, seed)?.evidence,
     ))
 }
 

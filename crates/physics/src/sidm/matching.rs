@@ -560,6 +560,23 @@ fn bilinear_zero(corners: &[[f64; 2]]) -> Option<(f64, f64)> {
     (inside(a) && inside(b)).then_some((a, b))
 }
 
+/// The core (ρ0 Msun/kpc³, σ0 km/s) at u = (ln ρ0, ln σ0) and its rate density ρ1, Msun/kpc³;
+/// None where ρ1 is undefined or not below ρ0 (no core).
+fn core_and_rate_density(setup: &SidmSetup, u: [f64; 2]) -> Option<(f64, f64, f64)> {
+    let (rho0, sigma0) = (u[0].exp(), u[1].exp());
+    let rho1 = setup
+        .cross_section
+        .rate_density_msun_kpc3(sigma0, setup.age_gyr);
+    (!rho1.is_nan() && rho1 < rho0).then_some((rho0, sigma0, rho1))
+}
+
+/// The matching's target at the rate density ρ1: the NFW radius where the density is ρ1 (kpc)
+/// and the halo's mass inside it (Msun).
+fn target_at_rate_density(nfw: &Nfw, rho1_msun_kpc3: f64) -> (f64, f64) {
+    let r1_kpc = nfw.radius_at_density_kpc(rho1_msun_kpc3);
+    (r1_kpc, nfw.enclosed_mass_msun(r1_kpc))
+}
+
 /// Log-residuals of the matching conditions at u = (ln ρ0, ln σ0): the core's r1 and M(r1)
 /// against the target NFW halo's radius and mass at the rate density.
 fn matching_residual(
@@ -569,21 +586,14 @@ fn matching_residual(
     u: [f64; 2],
     step_ln_xi: f64,
 ) -> Option<[f64; 2]> {
-    let (rho0, sigma0) = (u[0].exp(), u[1].exp());
-    let rho1 = setup
-        .cross_section
-        .rate_density_msun_kpc3(sigma0, setup.age_gyr);
-    if rho1.is_nan() || rho1 >= rho0 {
-        return None;
-    }
+    let (rho0, sigma0, rho1) = core_and_rate_density(setup, u)?;
     let problem = JeansProblem::new(rho0, sigma0, baryons).with_step(step_ln_xi);
     let crossing = problem
         .integrate((rho0 / rho1).ln(), f64::INFINITY, None)
         .ok()??;
     let r1 = problem.core_scale_kpc * crossing.ln_xi.exp();
     let m1 = problem.mass_unit_msun * crossing.m;
-    let r1_target = nfw.radius_at_density_kpc(rho1);
-    let m1_target = nfw.enclosed_mass_msun(r1_target);
+    let (r1_target, m1_target) = target_at_rate_density(nfw, rho1);
     let residual = [(r1 / r1_target).ln(), (m1 / m1_target).ln()];
     residual.iter().all(|v| v.is_finite()).then_some(residual)
 }
@@ -603,13 +613,7 @@ fn matching_residual_and_jacobian(
     baryons: &dyn EnclosedMass,
     u: [f64; 2],
 ) -> Option<([f64; 2], MatchingJacobian)> {
-    let (rho0, sigma0) = (u[0].exp(), u[1].exp());
-    let rho1 = setup
-        .cross_section
-        .rate_density_msun_kpc3(sigma0, setup.age_gyr);
-    if rho1.is_nan() || rho1 >= rho0 {
-        return None;
-    }
+    let (rho0, sigma0, rho1) = core_and_rate_density(setup, u)?;
     let d_ln_rho1 = ln_rate_density_slope(setup, sigma0);
     let problem = JeansProblem::new(rho0, sigma0, baryons);
     let sensitive = problem
@@ -618,8 +622,7 @@ fn matching_residual_and_jacobian(
     let crossing = sensitive.crossing;
     let r1 = problem.core_scale_kpc * crossing.ln_xi.exp();
     let m1 = problem.mass_unit_msun * crossing.m;
-    let r1_target = nfw.radius_at_density_kpc(rho1);
-    let m1_target = nfw.enclosed_mass_msun(r1_target);
+    let (r1_target, m1_target) = target_at_rate_density(nfw, rho1);
     let residual = [(r1 / r1_target).ln(), (m1 / m1_target).ln()];
     let x = r1_target / nfw.r_s_kpc;
     let d_ln_r1_target = d_ln_rho1 / (-(1.0 + 3.0 * x) / (1.0 + x));
@@ -799,19 +802,8 @@ fn partners_of(setup: &SidmSetup, nfw: &Nfw, found: &[(f64, f64)]) -> Vec<(f64, 
 }
 
 /// Newton's method with the full baryons from `guess` = (ρ0, σ0).
-pub(super) fn polish(
-    setup: &SidmSetup,
-    nfw: &Nfw,
-    guess: (f64, f64),
-    max_iterations: usize,
-) -> Option<(f64, f64)> {
-    let u = newton(
-        setup,
-        nfw,
-        setup.baryons,
-        [guess.0.ln(), guess.1.ln()],
-        max_iterations,
-    )?;
+pub(super) fn polish(setup: &SidmSetup, nfw: &Nfw, guess: (f64, f64)) -> Option<(f64, f64)> {
+    let u = newton(setup, nfw, setup.baryons, [guess.0.ln(), guess.1.ln()], 12)?;
     Some((u[0].exp(), u[1].exp()))
 }
 

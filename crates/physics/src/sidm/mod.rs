@@ -362,7 +362,7 @@ pub fn halo_first_near(
     require_positive("central density guess [Msun/kpc3]", guess.0)?;
     require_positive("dispersion guess [km/s]", guess.1)?;
     let (rho0, sigma0) =
-        matching::polish(setup, nfw, guess, 12).ok_or_else(|| PhysicsError::NoSolution {
+        matching::polish(setup, nfw, guess).ok_or_else(|| PhysicsError::NoSolution {
             reason: "Newton's method from the previous solution did not converge".into(),
         })?;
     core_first(setup, rho0, sigma0)
@@ -458,30 +458,6 @@ pub fn outer_halo_jacobian_det(setup: &SidmSetup, (rho0, sigma0): (f64, f64)) ->
     let (dm_dr, dc_dr) = ((by_rho0.0 - base.0) / STEP, (by_rho0.1 - base.1) / STEP);
     let (dm_ds, dc_ds) = ((by_sigma0.0 - base.0) / STEP, (by_sigma0.1 - base.1) / STEP);
     Some(dm_dr * dc_ds - dm_ds * dc_dr)
-}
-
-/// The lowest-density core matching `nfw` (the same answer as [`halo_first`] with
-/// [`Branch::LowestDensity`]), found cheaply when `guess` = (ρ0, σ0) is a nearby core: Newton's
-/// method from the guess (at most four iterations: a guess farther away than that costs more
-/// than following the baryon-free solution), its root kept when [`is_lowest_density_core`]
-/// recognises it from the core alone (first sheet, contrast below the baryon-free second fold);
-/// otherwise [`halo_first`]. The guess changes the cost, not the answer.
-pub fn lowest_density_core(
-    setup: &SidmSetup,
-    nfw: &Nfw,
-    guess: Option<(f64, f64)>,
-) -> Result<SidmHalo, PhysicsError> {
-    validate_setup(setup)?;
-    if let Some((rho0, sigma0)) = guess.filter(|g| g.0 > 0.0 && g.1 > 0.0)
-        && let Some(root) = matching::polish(setup, nfw, (rho0, sigma0), 4)
-        && let Ok((mut halo, jacobian)) = core_first_with_outer_jacobian(setup, root.0, root.1)
-        && lowest_density_by_sheet(halo.core_contrast_ln, outer_jacobian_det(&jacobian))
-            == Some(true)
-    {
-        halo.branch = Some(0);
-        return Ok(halo);
-    }
-    halo_first(setup, nfw, Branch::LowestDensity)
 }
 
 /// Every halo-first solution found, in order of increasing central density.
