@@ -13,7 +13,7 @@ use crate::InferError;
 use crate::diagnostics::{integrated_autocorr_times, split_rhat};
 use crate::layout::ParamSpec;
 use crate::model::{DERIVED_NAMES, Derived, Evaluation, FailureSummary, GalaxyModel};
-use crate::optimize::maximum_a_posteriori;
+use crate::optimize::{MapEstimate, maximum_a_posteriori, ridge};
 use crate::pipeline::{
     SamplingPlan, Straightening, bounded_interval, information_criteria, sample_straightened,
 };
@@ -264,9 +264,15 @@ fn fit_galaxy_as_configured<O: Observer>(
         seed: config.seed,
     };
     let bounds = posterior.layout().bounds();
+    let straightening = straightening(&posterior, config.straighten);
+    let starts = if straightening.regressed.is_empty() {
+        vec![map.theta.clone()]
+    } else {
+        ridge_starts(&posterior, &bounds, &map, straightening.given)?
+    };
     let (outcome, n_walkers, _) = sample_straightened(
         &posterior,
-        &map.theta,
+        &starts,
         &bounds,
         &plan,
         &mut rng,
@@ -274,7 +280,7 @@ fn fit_galaxy_as_configured<O: Observer>(
             let mut derived = vec![f64::NAN; posterior.n_derived()];
             posterior.log_density(trial, &mut derived).is_finite()
         },
-        &straightening(&posterior, config.straighten),
+        &straightening,
         observer,
     )?;
     let tempered = if outcome.cancelled
@@ -490,6 +496,40 @@ fn cold_rung_outcome(
         tau,
         cancelled: false,
     }
+}
+
+/// Points along the ridge in s ([`crate::optimize::ridge`]) at which the ensemble starts.
+const RIDGE_POINTS: usize = 12;
+/// Nelder–Mead iterations per ridge point (each starts from its neighbour's maximum).
+const RIDGE_ITERATIONS: u64 = 600;
+/// Ridge points more than this many nats below the best point's log-posterior start no walkers
+/// (e^−10 of the best point's density: no mass worth a walker; common practice).
+const RIDGE_DROP: f64 = 10.0;
+
+/// Where the walkers start: the best point, then the ridge's points in s within [`RIDGE_DROP`]
+/// of it.
+fn ridge_starts(
+    posterior: &GalaxyModel,
+    bounds: &[(f64, f64)],
+    map: &MapEstimate,
+    given: usize,
+) -> Result<Vec<Vec<f64>>, InferError> {
+    let points = ridge(
+        posterior,
+        bounds,
+        map,
+        given,
+        RIDGE_POINTS,
+        RIDGE_ITERATIONS,
+    )?;
+    Ok(std::iter::once(map.theta.clone())
+        .chain(
+            points
+                .into_iter()
+                .filter(|p| p.log_posterior >= map.log_posterior - RIDGE_DROP)
+                .map(|p| p.theta),
+        )
+        .collect())
 }
 
 /// How the sampler straightens this posterior ([`crate::reparam`]): when σ/m is sampled with

@@ -148,3 +148,177 @@ pub fn maximum_a_posteriori(
         },
     )
 }
+
+/// `inner` with coordinate `index` held at `value`: a density on the other coordinates.
+struct Slice<'a, D> {
+    inner: &'a D,
+    index: usize,
+    value: f64,
+}
+
+impl<D: LogDensity> Slice<'_, D> {
+    fn full(&self, rest: &[f64]) -> Vec<f64> {
+        let mut theta = Vec::with_capacity(rest.len() + 1);
+        theta.extend_from_slice(&rest[..self.index]);
+        theta.push(self.value);
+        theta.extend_from_slice(&rest[self.index..]);
+        theta
+    }
+}
+
+impl<D: LogDensity> LogDensity for Slice<'_, D> {
+    fn dim(&self) -> usize {
+        self.inner.dim() - 1
+    }
+
+    fn n_derived(&self) -> usize {
+        self.inner.n_derived()
+    }
+
+    fn log_density(&self, rest: &[f64], derived: &mut [f64]) -> f64 {
+        self.inner.log_density(&self.full(rest), derived)
+    }
+}
+
+/// The posterior's ridge along coordinate `given`: at `points` values of it, the middles of
+/// equal parts of its bounds, the maximum over the other coordinates (Nelder–Mead, at
+/// most `max_iterations`), each started from its neighbour's maximum nearer `best` (a
+/// continuation outwards from the best point in both directions). Returns the ridge's points
+/// with a finite log-posterior, in order of the coordinate.
+///
+/// A long, bent posterior can hide part of its mass from a sampler started at its maximum: on
+/// an invented bulge-dominated spiral the maximum lay at σ/m = 0.012 cm²/g, and ensembles
+/// started there either spread to σ/m ≈ 60 cm²/g or stayed below 0.28 cm²/g, by seed. The ridge
+/// shows every stretch of the coordinate where the posterior lives.
+pub fn ridge<D: LogDensity>(
+    density: &D,
+    bounds: &[(f64, f64)],
+    best: &MapEstimate,
+    given: usize,
+    points: usize,
+    max_iterations: u64,
+) -> Result<Vec<MapEstimate>, InferError> {
+    let (lower, upper) = bounds[given];
+    let points = points.max(2);
+    let values: Vec<f64> = (0..points)
+        .map(|k| lower + (upper - lower) * (k as f64 + 0.5) / points as f64)
+        .collect();
+    let rest_bounds: Vec<(f64, f64)> = bounds
+        .iter()
+        .enumerate()
+        .filter(|&(k, _)| k != given)
+        .map(|(_, &b)| b)
+        .collect();
+    let without = |theta: &[f64]| -> Vec<f64> {
+        theta
+            .iter()
+            .enumerate()
+            .filter(|&(k, _)| k != given)
+            .map(|(_, &v)| v)
+            .collect()
+    };
+    // The grid value nearest the best point starts both directions.
+    let first = values
+        .iter()
+        .enumerate()
+        .min_by(|a, b| {
+            (a.1 - best.theta[given])
+                .abs()
+                .total_cmp(&(b.1 - best.theta[given]).abs())
+        })
+        .map_or(0, |(k, _)| k);
+    let mut found: Vec<Option<MapEstimate>> = vec![None; points];
+    let outwards = (first..points).chain((0..first).rev());
+    for k in outwards {
+        // The neighbour on the best point's side, else the best point itself.
+        let neighbour = if k >= first {
+            k.checked_sub(1).filter(|&j| j >= first)
+        } else {
+            Some(k + 1)
+        };
+        let start = neighbour
+            .and_then(|j| found[j].as_ref())
+            .map_or_else(|| without(&best.theta), |e| without(&e.theta));
+        let slice = Slice {
+            inner: density,
+            index: given,
+            value: values[k],
+        };
+        let estimate = nelder_mead(&slice, &rest_bounds, &start, max_iterations)?;
+        if estimate.log_posterior.is_finite() && estimate.log_posterior > -REFUSED_COST {
+            found[k] = Some(MapEstimate {
+                theta: slice.full(&estimate.theta),
+                log_posterior: estimate.log_posterior,
+            });
+        }
+    }
+    Ok(found.into_iter().flatten().collect())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A bent ridge in 3-D: s ~ N(0, 1), y | s ~ N(s²/2, 0.1²), w | s ~ N(−s, 0.5²). Its
+    /// maximum over (y, w) at fixed s is y = s²/2, w = −s, where ln p = −s²/2 (+ const).
+    struct Bent;
+
+    impl LogDensity for Bent {
+        fn dim(&self) -> usize {
+            3
+        }
+
+        fn log_density(&self, x: &[f64], _derived: &mut [f64]) -> f64 {
+            let (s, y, w) = (x[0], x[1], x[2]);
+            -0.5 * s * s - 0.5 * ((y - 0.5 * s * s) / 0.1).powi(2) - 0.5 * ((w + s) / 0.5).powi(2)
+        }
+    }
+
+    #[test]
+    fn the_ridge_follows_the_conditional_maximum_across_the_bounds() {
+        let bounds = [(-3.0, 3.0), (-5.0, 10.0), (-5.0, 5.0)];
+        let best = MapEstimate {
+            theta: vec![0.0, 0.0, 0.0],
+            log_posterior: 0.0,
+        };
+        let points = ridge(&Bent, &bounds, &best, 0, 6, 2000).expect("ridge");
+        assert_eq!(points.len(), 6);
+        // The middles of six equal parts of [−3, 3], in order.
+        let expected_s = [-2.5, -1.5, -0.5, 0.5, 1.5, 2.5];
+        for (point, s) in points.iter().zip(expected_s) {
+            assert!((point.theta[0] - s).abs() < 1e-12, "{:?}", point.theta);
+            assert!(
+                (point.theta[1] - 0.5 * s * s).abs() < 1e-4,
+                "{:?}",
+                point.theta
+            );
+            assert!((point.theta[2] + s).abs() < 1e-4, "{:?}", point.theta);
+            assert!((point.log_posterior + 0.5 * s * s).abs() < 1e-6);
+        }
+    }
+
+    #[test]
+    fn ridge_points_outside_the_support_are_left_out() {
+        // A density that is zero (ln p = −∞) for s > 1.
+        struct Cut;
+        impl LogDensity for Cut {
+            fn dim(&self) -> usize {
+                2
+            }
+            fn log_density(&self, x: &[f64], _derived: &mut [f64]) -> f64 {
+                if x[0] > 1.0 {
+                    f64::NEG_INFINITY
+                } else {
+                    -0.5 * (x[0] * x[0] + x[1] * x[1])
+                }
+            }
+        }
+        let best = MapEstimate {
+            theta: vec![0.0, 0.0],
+            log_posterior: 0.0,
+        };
+        let points = ridge(&Cut, &[(-2.0, 2.0), (-3.0, 3.0)], &best, 0, 4, 500).expect("ridge");
+        let s: Vec<f64> = points.iter().map(|p| p.theta[0]).collect();
+        assert_eq!(s, vec![-1.5, -0.5, 0.5]);
+    }
+}

@@ -61,10 +61,34 @@ pub fn sample_around<D: LogDensity, O: Observer>(
     is_valid: impl Fn(&[f64]) -> bool,
     observer: &mut O,
 ) -> Result<(RunOutcome, usize), InferError> {
-    let n_walkers = walker_count(plan.n_walkers, centre.len());
+    sample_around_each(
+        density,
+        &[centre.to_vec()],
+        bounds,
+        plan,
+        rng,
+        is_valid,
+        observer,
+    )
+}
+
+/// [`sample_around`] with the walkers shared out among several `centres` in turn (the first
+/// walker at the first centre, the second at the second, ...).
+#[allow(clippy::too_many_arguments)]
+fn sample_around_each<D: LogDensity, O: Observer>(
+    density: &D,
+    centres: &[Vec<f64>],
+    bounds: &[(f64, f64)],
+    plan: &SamplingPlan<'_>,
+    rng: &mut Xoshiro256PlusPlus,
+    is_valid: impl Fn(&[f64]) -> bool,
+    observer: &mut O,
+) -> Result<(RunOutcome, usize), InferError> {
+    let n_walkers = walker_count(plan.n_walkers, density.dim());
     let mut initial = Vec::with_capacity(n_walkers);
-    for _ in 0..n_walkers {
-        let mut placed = centre.to_vec();
+    for walker in 0..n_walkers {
+        let centre = &centres[walker % centres.len()];
+        let mut placed = centre.clone();
         for &scale in plan.ball_scales {
             let trial: Vec<f64> = centre
                 .iter()
@@ -193,12 +217,15 @@ impl<O: Observer> Observer for Offset<'_, O> {
 
 /// [`sample_around`] with the posterior straightened first ([`crate::reparam`]): pilot runs fit
 /// a [`ConditionalMap`] and the main run samples in its coordinates until converged, its chain
-/// recorded in θ, where τ (and so convergence) is measured. Also returns the map used (None when
-/// no pilot could fit one: the main run then samples θ).
+/// recorded in θ, where τ (and so convergence) is measured. The pilot's walkers start around
+/// the `starts` in turn (the best point, then points along the posterior's ridge in s:
+/// [`crate::optimize::ridge`]), so that the first map already spans every stretch of s where
+/// the posterior lives. Also returns the map used (None when no pilot could fit one: the main
+/// run then samples θ).
 #[allow(clippy::too_many_arguments)]
 pub fn sample_straightened<D: LogDensity, O: Observer>(
     density: &D,
-    centre: &[f64],
+    starts: &[Vec<f64>],
     bounds: &[(f64, f64)],
     plan: &SamplingPlan<'_>,
     rng: &mut Xoshiro256PlusPlus,
@@ -208,7 +235,7 @@ pub fn sample_straightened<D: LogDensity, O: Observer>(
 ) -> Result<(RunOutcome, usize, Option<ConditionalMap>), InferError> {
     if straightening.regressed.is_empty() {
         let (outcome, n_walkers) =
-            sample_around(density, centre, bounds, plan, rng, is_valid, observer)?;
+            sample_around_each(density, starts, bounds, plan, rng, is_valid, observer)?;
         return Ok((outcome, n_walkers, None));
     }
     let cap = plan.run.max_steps;
@@ -233,9 +260,9 @@ pub fn sample_straightened<D: LogDensity, O: Observer>(
         inner: density,
         beta: beta(0),
     };
-    let (pilot, n_walkers) = sample_around(
+    let (pilot, n_walkers) = sample_around_each(
         &flattened,
-        centre,
+        starts,
         bounds,
         &pilot_plan,
         rng,
@@ -521,7 +548,7 @@ mod tests {
         let mut rng = Xoshiro256PlusPlus::seed_from_u64(11);
         let (outcome, _, map) = sample_straightened(
             &Banana,
-            &[0.0, 0.0, 0.0],
+            &[vec![0.0, 0.0, 0.0]],
             &bounds,
             &plan,
             &mut rng,
