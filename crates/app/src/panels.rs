@@ -23,36 +23,30 @@ fn power_of_ten(mark: egui_plot::GridMark, _range: &std::ops::RangeInclusive<f64
     significant(10f64.powf(mark.value), 2)
 }
 
-/// The plot corner least crowded (within 40% of each axis) by `points` (x, y, weight), for the
-/// legend; ties go to the lower right, where rotation curves are usually empty of data.
-fn emptiest_corner(points: &[(f64, f64, usize)], x_max: f64, y_max: f64) -> Corner {
-    let crowd = |corner: Corner| -> usize {
+/// Head-room above the highest error bar on the rotation-curve plot, as a factor on its top:
+/// the legend sits there, above the data, instead of over it (a legend in the emptiest corner
+/// still hid points of a flat curve: on Kiln D02 it covered four).
+const LEGEND_HEADROOM: f64 = 1.4;
+
+/// The top corner for the legend: the one whose outer 45% of the radius axis has fewer of
+/// `points` (x, y, weight) in the head-room above `y_top` (model curves that overshoot the
+/// data); ties go to the upper left, above the rising part of a rotation curve.
+fn legend_corner(points: &[(f64, f64, usize)], x_max: f64, y_top: f64) -> Corner {
+    let crowd = |left: bool| -> usize {
         points
             .iter()
             .filter(|&&(px, py, _)| {
-                let (fx, fy) = (px / x_max, py / y_max.max(1e-9));
-                let near_x = match corner {
-                    Corner::LeftTop | Corner::LeftBottom => fx < 0.4,
-                    Corner::RightTop | Corner::RightBottom => fx > 0.6,
-                };
-                let near_y = match corner {
-                    Corner::LeftTop | Corner::RightTop => fy > 0.6,
-                    Corner::LeftBottom | Corner::RightBottom => fy < 0.4,
-                };
-                near_x && near_y
+                let fx = px / x_max;
+                py > y_top && if left { fx < 0.45 } else { fx > 0.55 }
             })
             .map(|p| p.2)
             .sum()
     };
-    [
-        Corner::RightBottom,
-        Corner::LeftTop,
-        Corner::RightTop,
-        Corner::LeftBottom,
-    ]
-    .into_iter()
-    .min_by_key(|&corner| crowd(corner))
-    .unwrap_or(Corner::RightBottom)
+    if crowd(false) < crowd(true) {
+        Corner::RightTop
+    } else {
+        Corner::LeftTop
+    }
 }
 
 impl CalderaApp {
@@ -357,7 +351,11 @@ impl CalderaApp {
                     ui.label(format!("<v_rel> = {} km/s", significant(v, 3)));
                 }
                 if let Some(r1) = curve.components.r1_kpc {
-                    ui.label(format!("r1 = {} kpc", significant(r1, 3)));
+                    ui.label(format!("r1 = {} kpc", significant(r1, 3)))
+                        .on_hover_text(
+                            "r1: the radius inside which each dark-matter particle has scattered \
+                         about once over the halo age (dashed line on the plot)",
+                        );
                 }
             }
             (None, Some(error)) => {
@@ -615,7 +613,7 @@ impl CalderaApp {
         let fine = every(&c.fine_radius_kpc);
         add(&fine, &every(&c.v_halo_fine_kms), 1);
         add(&fine, &every(&c.v_total_fine_kms), 1);
-        let legend_corner = emptiest_corner(&crowd, x_max, y_top);
+        let legend_corner = legend_corner(&crowd, x_max, y_top);
         let (curve_id, residual_id) = crate::curve_plot_ids(galaxy);
         Plot::new(("rotation curve", galaxy))
             .id(curve_id)
@@ -626,6 +624,7 @@ impl CalderaApp {
             .link_axis(link, [true, false])
             .default_x_bounds(0.0, x_max)
             .include_y(0.0)
+            .include_y(y_top * LEGEND_HEADROOM)
             .show_crosshair(false)
             .show(ui, |plot| {
                 for (k, ((&r, &v), &e)) in c
@@ -693,13 +692,13 @@ impl CalderaApp {
                 // beyond the data they become an edge label with their value.
                 let markers = [
                     (
-                        "r1, dashed (each particle scattered once)",
+                        "r1 (dashed)",
                         "r1",
                         c.r1_kpc,
                         egui_plot::LineStyle::dashed_loose(),
                     ),
                     (
-                        "core radius r0, dotted",
+                        "core radius r0 (dotted)",
                         "core radius",
                         c.core_radius_kpc,
                         egui_plot::LineStyle::dotted_dense(),
@@ -1087,3 +1086,22 @@ fn prior_summary(priors: &caldera_infer::priors::Priors, model: HaloModel) -> St
 
 /// What the prior line means, on hover.
 const PRIOR_HOVER: &str = "The outer halo's prior is the same for NFW, Einasto, Burkert and SIDM: log-uniform V200 and log c200 normal around the Dutton & Macciò (2014) relation. SIDM and Burkert halos are sampled in their own coordinates and carry this prior there by the Jacobian. When several SIDM cores match one outer halo, the prior admits the lowest-density one (the core-expansion solution). Υ's, distance and inclination have their own priors (README).";
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn the_legend_takes_the_top_corner_with_less_overshoot() {
+        // A flat curve whose model overshoots the data at small radii: the upper right is
+        // freer.
+        let overshoot: Vec<(f64, f64, usize)> = (0..10)
+            .map(|k| (0.3 * f64::from(k), 120.0, 1))
+            .chain([(8.0, 101.0, 1)])
+            .collect();
+        assert_eq!(legend_corner(&overshoot, 10.0, 100.0), Corner::RightTop);
+        // Nothing above the data: the upper left, above a curve's rise.
+        let below = [(1.0, 50.0, 5), (9.0, 99.0, 5)];
+        assert_eq!(legend_corner(&below, 10.0, 100.0), Corner::LeftTop);
+    }
+}
