@@ -23,6 +23,11 @@ fn power_of_ten(mark: egui_plot::GridMark, _range: &std::ops::RangeInclusive<f64
     significant(10f64.powf(mark.value), 2)
 }
 
+/// Width of the y axes of the rotation curve and of its residuals, in ui points: one width for
+/// both, so that their radius axes line up (with widths set by their own tick labels, "300"
+/// against "3", Kiln S03's residuals sat 12 px left of its curve).
+const CURVE_Y_AXIS_WIDTH: f32 = 48.0;
+
 /// Head-room above the highest error bar on the rotation-curve plot, as a factor on its top:
 /// the legend sits there, above the data, instead of over it (a legend in the emptiest corner
 /// still hid points of a flat curve: on Kiln D02 it covered four).
@@ -621,6 +626,7 @@ impl CalderaApp {
             .legend(Legend::default().position(legend_corner))
             .x_axis_label("Radius [kpc]")
             .y_axis_label("Circular velocity [km/s]")
+            .y_axis_min_width(CURVE_Y_AXIS_WIDTH)
             .link_axis(link, [true, false])
             .default_x_bounds(0.0, x_max)
             .include_y(0.0)
@@ -740,6 +746,7 @@ impl CalderaApp {
             .height(ui.available_height())
             .x_axis_label("Radius [kpc]")
             .y_axis_label("(V_obs − V_model)/σ")
+            .y_axis_min_width(CURVE_Y_AXIS_WIDTH)
             .link_axis(link, [true, false])
             .default_x_bounds(0.0, x_max)
             .show_crosshair(false)
