@@ -254,7 +254,8 @@ fn fit_galaxy_as_configured<O: Observer>(
     let dim = posterior.dim();
     let map = maximum_a_posteriori(&posterior, config.map_starts, config.seed)?;
 
-    // Walkers in a small ball around the MAP, each with a positive posterior.
+    // Walkers in small balls around the MAP (and, for a straightened posterior, around points of
+    // its ridge in σ/m: `ridge_starts`), each with a positive posterior.
     let mut rng = Xoshiro256PlusPlus::seed_from_u64(config.seed ^ 0x5eed_ba11);
     let plan = SamplingPlan {
         n_walkers: config.n_walkers,

@@ -1,6 +1,7 @@
 //! One "sample this density" path, shared by the galaxy fits and the population fits: walkers in
-//! a ball around the best point (with retries at smaller scales), the ensemble sampler until
-//! converged, posterior summaries with the upper-limit rule, and information criteria.
+//! a ball around the best point, or around several starting points (with retries at smaller
+//! scales), the ensemble sampler until converged, posterior summaries with the upper-limit rule,
+//! and information criteria.
 //!
 //! The maximum itself comes from [`crate::optimize::multistart_nelder_mead`], which both fits call
 //! with their own start rule.
