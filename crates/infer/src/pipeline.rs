@@ -48,35 +48,13 @@ pub fn walker_count(requested: usize, dim: usize) -> usize {
     n + n % 2
 }
 
-/// Samples `density` starting from a ball around `centre`: walker positions are drawn with
-/// `rng` (each retried at the plan's smaller scales until `is_valid` accepts it), then the
-/// ensemble runs until converged, capped or stopped by `observer`. Returns the outcome and the
+/// Samples `density` starting from balls around `centres`, shared out among the walkers in turn
+/// (the first walker at the first centre, the second at the second, ...): walker positions are
+/// drawn with `rng` (each retried at the plan's smaller scales until `is_valid` accepts it), then
+/// the ensemble runs until converged, capped or stopped by `observer`. Returns the outcome and the
 /// number of walkers.
 #[allow(clippy::too_many_arguments)]
 pub fn sample_around<D: LogDensity, O: Observer>(
-    density: &D,
-    centre: &[f64],
-    bounds: &[(f64, f64)],
-    plan: &SamplingPlan<'_>,
-    rng: &mut Xoshiro256PlusPlus,
-    is_valid: impl Fn(&[f64]) -> bool,
-    observer: &mut O,
-) -> Result<(RunOutcome, usize), InferError> {
-    sample_around_each(
-        density,
-        &[centre.to_vec()],
-        bounds,
-        plan,
-        rng,
-        is_valid,
-        observer,
-    )
-}
-
-/// [`sample_around`] with the walkers shared out among several `centres` in turn (the first
-/// walker at the first centre, the second at the second, ...).
-#[allow(clippy::too_many_arguments)]
-fn sample_around_each<D: LogDensity, O: Observer>(
     density: &D,
     centres: &[Vec<f64>],
     bounds: &[(f64, f64)],
@@ -236,7 +214,7 @@ pub fn sample_straightened<D: LogDensity, O: Observer>(
 ) -> Result<(RunOutcome, usize, Option<ConditionalMap>), InferError> {
     if straightening.regressed.is_empty() {
         let (outcome, n_walkers) =
-            sample_around_each(density, starts, bounds, plan, rng, is_valid, observer)?;
+            sample_around(density, starts, bounds, plan, rng, is_valid, observer)?;
         return Ok((outcome, n_walkers, None));
     }
     let cap = plan.run.max_steps;
@@ -261,7 +239,7 @@ pub fn sample_straightened<D: LogDensity, O: Observer>(
         inner: density,
         beta: beta(0),
     };
-    let (pilot, n_walkers) = sample_around_each(
+    let (pilot, n_walkers) = sample_around(
         &flattened,
         starts,
         bounds,
@@ -274,7 +252,7 @@ pub fn sample_straightened<D: LogDensity, O: Observer>(
         return Ok((pilot, n_walkers, None));
     }
     let mut done = pilot.chain.steps();
-    let mut positions = final_positions(&pilot);
+    let mut positions = pilot.final_positions();
     // The map is fitted to every sample since the pilot's first half (the walkers leaving their
     // starting ball): each later run spreads further along the ridge.
     let mut samples = chain_positions(&pilot.chain, done / 2);
@@ -298,7 +276,7 @@ pub fn sample_straightened<D: LogDensity, O: Observer>(
             return Ok((more, n_walkers, None));
         }
         done += more.chain.steps();
-        positions = final_positions(&more);
+        positions = more.final_positions();
         samples.extend(chain_positions(&more.chain, 0));
         fitted = straightening.fit(&samples);
         extra += 1;
@@ -346,7 +324,7 @@ pub fn sample_straightened<D: LogDensity, O: Observer>(
             return Ok((outcome, n_walkers, Some(map)));
         }
         done += outcome.chain.steps();
-        positions = final_positions(&outcome);
+        positions = outcome.final_positions();
         let fresh = chain_positions(&outcome.chain, 0);
         let spread_further = !map.covers(
             fresh.iter().map(|x| x[straightening.given]),
@@ -396,7 +374,7 @@ pub fn sample_straightened<D: LogDensity, O: Observer>(
             return Ok((outcome, n_walkers, Some(map)));
         }
         done += outcome.chain.steps();
-        positions = final_positions(&outcome);
+        positions = outcome.final_positions();
         // Refitted to the main runs' samples alone (the posterior itself, at β = 1).
         main_samples.extend(chain_positions(&outcome.chain, 0));
         if let Some(fitted) = straightening.fit(&main_samples) {
@@ -432,16 +410,6 @@ impl<O: Observer> Observer for LongTauWatch<'_, O> {
         }
         Control::Continue
     }
-}
-
-/// The final walkers' positions.
-fn final_positions(outcome: &RunOutcome) -> Vec<Vec<f64>> {
-    outcome
-        .state
-        .walkers
-        .iter()
-        .map(|w| w.position.clone())
-        .collect()
 }
 
 /// Every position of `chain` from step `from` on.

@@ -139,13 +139,11 @@ impl GalaxyPosterior {
                 }
                 kept.iter()
                     .map(|&(s, w)| {
-                        let v_rel = fit
-                            .chain
-                            .derived(s, w, crate::model::Derived::VRel as usize);
-                        caldera_physics::cross_section::dispersion_from_mean_relative_speed_kms(
-                            v_rel,
-                        )
-                        .log10()
+                        log10_sigma0_kms(fit.chain.derived(
+                            s,
+                            w,
+                            crate::model::Derived::VRel as usize,
+                        ))
                     })
                     .collect()
             }
@@ -206,10 +204,7 @@ pub fn load_folder_posteriors(
                 .column(crate::model::DERIVED_NAMES[crate::model::Derived::VRel as usize])
                 .ok_or(missing)?
                 .iter()
-                .map(|&v| {
-                    caldera_physics::cross_section::dispersion_from_mean_relative_speed_kms(v)
-                        .log10()
-                })
+                .map(|&v| log10_sigma0_kms(v))
                 .collect(),
         };
         out.posteriors.push(GalaxyPosterior::from_chain(
@@ -222,6 +217,12 @@ pub fn load_folder_posteriors(
         out.converged.push(summary.converged);
     }
     Ok(out)
+}
+
+/// log10 of the core dispersion σ0 (km/s) from the mean relative speed ⟨v_rel⟩ = 4σ0/√π (km/s):
+/// how a chain sampled in outer-halo coordinates, which has no σ0 column, gives its σ0.
+fn log10_sigma0_kms(v_rel_kms: f64) -> f64 {
+    dispersion_from_mean_relative_speed_kms(v_rel_kms).log10()
 }
 
 /// One fitted parameter: physical value (not its log) summarised over the posterior.
@@ -395,7 +396,7 @@ pub fn fit_population<O: Observer>(
     };
     let (outcome, _) = sample_around(
         &density,
-        &best.theta,
+        std::slice::from_ref(&best.theta),
         &bounds,
         &plan,
         &mut rng,
