@@ -64,6 +64,11 @@ pub struct PopulationArgs {
     /// Skip the joint fit (shared σ(v)/m by reweighting each galaxy's chain).
     #[arg(long)]
     pub no_joint: bool,
+    /// Skip the hierarchical fits (each model again with an intrinsic scatter τ, in dex, of the
+    /// galaxies' σ/m about it; under the joint treatment, or the population one with
+    /// --no-joint).
+    #[arg(long)]
+    pub no_scatter: bool,
     /// Seed of the population samplers.
     #[arg(long, default_value_t = 1)]
     pub seed: u64,
@@ -133,6 +138,9 @@ struct Report {
     preferred_by_aic: Option<VelocityModel>,
     /// Joint fit: all galaxies share σ(v)/m, each keeps its own halo and nuisances.
     joint: Option<Comparison>,
+    /// Hierarchical fit: the joint fit's models (the population fit's with --no-joint), each
+    /// galaxy's σ_eff scattering about the model with an intrinsic scatter τ (dex).
+    hierarchical: Option<Comparison>,
     particle_models: Vec<ParticleModel>,
     settings: PopulationSettings,
 }
@@ -265,8 +273,8 @@ fn fit_all(
         .with_context(|| format!("population model {}", model.name()))?;
         if verbosity != Verbosity::Quiet {
             eprintln!(
-                "  {:<10} {:<8} ln L_max {:>9.2}  BIC {:>8.2}  {:.1} s{}",
-                model.name(),
+                "  {:<18} {:<8} ln L_max {:>9.2}  BIC {:>8.2}  {:.1} s{}",
+                fit.label(),
                 format!("{treatment:?}").to_lowercase(),
                 fit.log_likelihood_max,
                 fit.bic,
@@ -295,7 +303,10 @@ fn text_report(report: &Report) -> String {
         report.galaxies.len(),
         report.constraints.len()
     );
-    let mut section = |title: &str, fits: &[PopulationFit], preferred: Option<VelocityModel>| {
+    let mut section = |title: &str,
+                       fits: &[PopulationFit],
+                       preferred: Option<VelocityModel>,
+                       without_scatter: &[PopulationFit]| {
         text += &format!("\n{title}\n");
         let best_bic = fits.iter().map(|f| f.bic).fold(f64::INFINITY, f64::min);
         let best_log_z = fits
@@ -312,9 +323,26 @@ fn text_report(report: &Report) -> String {
                 ),
                 _ => String::new(),
             };
+            let against_no_scatter = without_scatter
+                .iter()
+                .find(|f| f.model == fit.model)
+                .map(|f| {
+                    let delta = fit.bic - f.bic;
+                    format!(
+                        "  BIC − BIC(no scatter) {delta:>6.2} ({})",
+                        if delta <= -2.0 {
+                            "scatter needed"
+                        } else if delta < 2.0 {
+                            "a tie"
+                        } else {
+                            "no scatter needed"
+                        }
+                    )
+                })
+                .unwrap_or_default();
             text += &format!(
-                "  {:<10} ln L_max {:>9.2}  AIC {:>8.2}  BIC {:>8.2}  ΔBIC {:>6.2}{evidence}{}\n",
-                fit.model.name(),
+                "  {:<18} ln L_max {:>9.2}  AIC {:>8.2}  BIC {:>8.2}  ΔBIC {:>6.2}{against_no_scatter}{evidence}{}\n",
+                fit.label(),
                 fit.log_likelihood_max,
                 fit.aic,
                 fit.bic,
@@ -342,12 +370,28 @@ fn text_report(report: &Report) -> String {
         "Population fit (each galaxy at its median velocity; median [16%, 84%]):",
         &report.models,
         report.preferred,
+        &[],
     );
     if let Some(joint) = &report.joint {
         section(
             "Joint fit (shared σ(v)/m, each galaxy's halo and nuisances marginalised by reweighting):",
             &joint.models,
             joint.preferred,
+            &[],
+        );
+    }
+    if let Some(hierarchical) = &report.hierarchical {
+        let (treatment, unscattered) = match &report.joint {
+            Some(joint) => ("joint", joint.models.as_slice()),
+            None => ("population", report.models.as_slice()),
+        };
+        section(
+            &format!(
+                "Hierarchical fit (the {treatment} fit with an intrinsic scatter tau of each galaxy's log sigma/m about the model, dex; ΔBIC ≤ −2 against no scatter: scatter needed):"
+            ),
+            &hierarchical.models,
+            hierarchical.preferred,
+            unscattered,
         );
     }
     if let Some(preferred) = report.preferred {
@@ -548,6 +592,31 @@ pub(crate) fn run(args: &PopulationArgs, verbosity: Verbosity) -> anyhow::Result
             models: fits,
         })
     };
+    let hierarchical = if args.no_scatter {
+        None
+    } else {
+        let treatment = if args.no_joint {
+            Treatment::Marginal
+        } else {
+            Treatment::Joint
+        };
+        let fits = fit_all(
+            &models,
+            treatment,
+            &galaxies,
+            &constraints,
+            &PopulationSettings {
+                scatter: true,
+                ..settings
+            },
+            verbosity,
+        )?;
+        Some(Comparison {
+            preferred: preferred_by_bic(&fits),
+            preferred_by_aic: preferred_by_aic(&fits),
+            models: fits,
+        })
+    };
     let speeds = plotted_speeds(&entries, &constraints);
     let report = Report {
         results: args.results.clone(),
@@ -558,6 +627,7 @@ pub(crate) fn run(args: &PopulationArgs, verbosity: Verbosity) -> anyhow::Result
         preferred_by_aic: preferred_by_aic(&marginal),
         models: marginal,
         joint,
+        hierarchical,
         particle_models: particles
             .into_iter()
             .map(|(spec, cross_section)| ParticleModel {

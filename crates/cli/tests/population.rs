@@ -166,6 +166,24 @@ fn population_and_joint_fits_recover_a_mock_catalogues_fall_off() {
     }
     assert_eq!(report["preferred"], "fall-off");
     assert_eq!(report["joint"]["preferred"], "fall-off");
+    // The hierarchical fits: every galaxy shares one σ(v)/m, so the intrinsic scatter τ is not
+    // called for — BIC does not drop by 2 when it is added — and the fall-off still covers the
+    // truth with it.
+    let hierarchical = &report["hierarchical"]["models"];
+    for model in ["constant", "fall-off"] {
+        let scattered = find(hierarchical, model);
+        assert_eq!(scattered["scatter"], true);
+        assert_eq!(scattered["treatment"], "joint");
+        let tau = &parameter(&scattered, "tau")["interval"];
+        let unscattered = find(&report["joint"]["models"], model);
+        let delta_bic = scattered["bic"].as_f64().expect("bic")
+            - unscattered["bic"].as_f64().expect("bic");
+        eprintln!("{model}: tau {tau}, BIC(with scatter) - BIC(without) = {delta_bic}");
+        assert!(delta_bic > -2.0, "{model}: scatter called for, ΔBIC {delta_bic}");
+    }
+    let fall_off = find(hierarchical, "fall-off");
+    assert_covers(&fall_off, "sigma0_m", TRUE_SIGMA0_CM2_G);
+    assert_covers(&fall_off, "w", TRUE_W_KMS);
     assert!(results.join("population/population_models.svg").exists());
     std::fs::remove_dir_all(&dir).ok();
 }

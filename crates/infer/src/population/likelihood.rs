@@ -20,6 +20,15 @@
 //! changes the halo no further: the core is already smaller than the data resolve), and the
 //! kernel is reflected there so the density does not halve at the edge. Above the upper bound the
 //! kernel's tail takes over: the galaxy's fit says nothing there, and the score falls off.
+//!
+//! Intrinsic scatter (the hierarchical model): each galaxy's own effective cross-section scatters
+//! about the model's, log10 σ_eff,i = log10 σ_model(σ0_i) + ε_i with ε_i ~ N(0, τ²), τ in dex a
+//! population parameter. Its likelihood is the galaxy's ∫ L_i(y) N(y; μ_i, τ²) dy, and with the
+//! Gaussian kernel standing for L_i the integral is exact: the same kernel sum with the width
+//! √(h² + τ²) in place of h (a Gaussian convolved with a Gaussian). Near the lower bound the
+//! mirrored kernel is widened alike, which treats scatter below the bound as the bound itself
+//! would (an approximation when τ is comparable to the distance to the bound). Outside
+//! constraints are not scattered: they enter at the model's σ_eff.
 
 use caldera_data::{ConstraintValue, OutsideConstraint};
 use caldera_physics::CrossSection;
@@ -75,8 +84,8 @@ fn silverman_bandwidth(values: &[f64]) -> f64 {
 }
 
 /// ln of the mean Gaussian kernel density, (1/(N h √(2π))) Σ_k [K((y_k − s_k)/h) +
-/// K((y_k + s_k − 2 lower)/h)], over pairs (y_k, s_k); the reflected term is skipped where it is
-/// below e⁻³² of the direct one.
+/// K((y_k + s_k − 2 lower)/h)], over pairs (y_k, s_k), for a kernel width h (dex); the reflected
+/// term is skipped where it is below e⁻³² of the direct one.
 fn log_kernel_mean(pairs: impl Iterator<Item = (f64, f64)>, lower: f64, h: f64) -> f64 {
     let mut terms = Vec::with_capacity(pairs.size_hint().0);
     for (y, s) in pairs {
@@ -150,13 +159,31 @@ impl GalaxyPosterior {
 
     /// The kernel log-density of log10 σ/m at `y`, summed over the samples.
     fn direct_log_density(&self, y: f64) -> f64 {
+        self.direct_log_density_width(y, self.bandwidth_dex)
+    }
+
+    /// As [`Self::direct_log_density`] with a kernel of width `width_dex`.
+    fn direct_log_density_width(&self, y: f64, width_dex: f64) -> f64 {
         let lower = self.log10_bounds.0;
         let y = y.max(lower);
-        log_kernel_mean(
-            self.log10_sigma_m.iter().map(|&s| (y, s)),
-            lower,
-            self.bandwidth_dex,
-        )
+        log_kernel_mean(self.log10_sigma_m.iter().map(|&s| (y, s)), lower, width_dex)
+    }
+
+    /// The kernel width for an intrinsic scatter `scatter_dex`: √(h² + τ²), dex.
+    #[must_use]
+    pub fn scattered_width_dex(&self, scatter_dex: f64) -> f64 {
+        self.bandwidth_dex.hypot(scatter_dex)
+    }
+
+    /// The marginal log-likelihood of a model that predicts log10 σ_eff = `y` for this galaxy
+    /// with an intrinsic scatter of `scatter_dex` (0: none, the tabulated density).
+    #[must_use]
+    pub fn scattered_marginal_log_density(&self, y: f64, scatter_dex: f64) -> f64 {
+        if scatter_dex > 0.0 {
+            self.direct_log_density_width(y, self.scattered_width_dex(scatter_dex))
+        } else {
+            self.marginal_log_density(y)
+        }
     }
 
     /// The marginal log-density of log10 σ/m at `y` (tabulated; clamped at the lower bound).
@@ -173,8 +200,9 @@ impl GalaxyPosterior {
     }
 
     /// The joint-treatment log-likelihood: samples reweighted by how close each one's σ/m lies
-    /// to the shared model's σ_eff at that sample's σ0 (`predicted` maps σ0 to log10 σ_eff).
-    pub fn joint_log_density(&self, predicted: impl Fn(f64) -> f64) -> f64 {
+    /// to the shared model's σ_eff at that sample's σ0 (`predicted` maps σ0 to log10 σ_eff),
+    /// with an intrinsic scatter of `scatter_dex` about the model (0: none).
+    pub fn joint_log_density(&self, predicted: impl Fn(f64) -> f64, scatter_dex: f64) -> f64 {
         let lower = self.log10_bounds.0;
         log_kernel_mean(
             self.sigma0_kms
@@ -182,7 +210,7 @@ impl GalaxyPosterior {
                 .zip(&self.log10_sigma_m)
                 .map(|(&sigma0, &s)| (predicted(sigma0).max(lower), s)),
             lower,
-            self.bandwidth_dex,
+            self.scattered_width_dex(scatter_dex),
         )
     }
 
@@ -239,6 +267,17 @@ pub enum Treatment {
 /// Nodes of the σ0 table used by the joint treatment, per e-fold.
 const NODES_PER_E_FOLD: f64 = 8.0;
 
+/// The sampled coordinate of the intrinsic scatter: log10 τ (τ in dex of σ_eff), log-uniform
+/// between 0.01 dex (no scatter the galaxies could resolve: their posteriors are ≳ 0.1 dex wide)
+/// and 2 dex (a spread wider than any catalogue's σ/m range); common practice for a scale
+/// parameter, the bounds our choice.
+pub const SCATTER_PARAMETER: PopulationParameter = PopulationParameter {
+    name: "tau",
+    unit: "dex",
+    lower: -2.0,
+    upper: std::f64::consts::LOG10_2,
+};
+
 /// The likelihood of one population model's coordinates, as a density for the sampler (flat
 /// priors on the log10 coordinates within their bounds).
 pub struct PopulationLikelihood<'a> {
@@ -249,8 +288,10 @@ pub struct PopulationLikelihood<'a> {
     constraints: &'a [OutsideConstraint],
     /// ln σ0 at the table nodes (joint treatment).
     ln_sigma0_nodes: Vec<f64>,
-    /// The model's sampled coordinates.
+    /// The model's sampled coordinates (then log10 τ when the scatter is fitted).
     parameters: Vec<PopulationParameter>,
+    /// Whether the last coordinate is the intrinsic scatter's log10 τ.
+    scatter: bool,
 }
 
 impl<'a> PopulationLikelihood<'a> {
@@ -284,7 +325,28 @@ impl<'a> PopulationLikelihood<'a> {
             constraints,
             ln_sigma0_nodes,
             parameters: model.population_parameters(),
+            scatter: false,
         }
+    }
+
+    /// The hierarchical model: adds the intrinsic scatter τ as the last coordinate (log10 τ,
+    /// [`SCATTER_PARAMETER`]).
+    #[must_use]
+    pub fn with_scatter(mut self, scatter: bool) -> Self {
+        if scatter && !self.scatter {
+            self.parameters.push(SCATTER_PARAMETER);
+        }
+        if !scatter && self.scatter {
+            self.parameters.pop();
+        }
+        self.scatter = scatter;
+        self
+    }
+
+    /// Whether the intrinsic scatter is fitted.
+    #[must_use]
+    pub fn has_scatter(&self) -> bool {
+        self.scatter
     }
 
     /// The sampled coordinates (log10 of each free parameter) and their bounds.
@@ -315,7 +377,16 @@ impl<'a> PopulationLikelihood<'a> {
         if !self.in_bounds(theta) {
             return f64::NEG_INFINITY;
         }
-        let Ok(cross_section) = self.model.cross_section(theta, self.yukawa_dm_mass_gev) else {
+        let (model_theta, scatter_dex) = if self.scatter {
+            let (model_theta, tau) = theta.split_at(theta.len() - 1);
+            (model_theta, 10f64.powf(tau[0]))
+        } else {
+            (theta, 0.0)
+        };
+        let Ok(cross_section) = self
+            .model
+            .cross_section(model_theta, self.yukawa_dm_mass_gev)
+        else {
             return f64::NEG_INFINITY;
         };
         let log10_effective = |sigma0: f64| effective_sigma_m_cm2_g(&cross_section, sigma0).log10();
@@ -323,7 +394,12 @@ impl<'a> PopulationLikelihood<'a> {
             Treatment::Marginal => self
                 .galaxies
                 .iter()
-                .map(|g| g.marginal_log_density(log10_effective(g.median_sigma0_kms)))
+                .map(|g| {
+                    g.scattered_marginal_log_density(
+                        log10_effective(g.median_sigma0_kms),
+                        scatter_dex,
+                    )
+                })
                 .sum(),
             Treatment::Joint => {
                 let table: Vec<f64> = self
@@ -334,7 +410,8 @@ impl<'a> PopulationLikelihood<'a> {
                 let nodes = &self.ln_sigma0_nodes;
                 let interpolate = |sigma0: f64| -> f64 {
                     let x = sigma0.ln();
-                    if nodes.len() < 2 {
+                    // One node, or every sample at one σ0: the table is one value.
+                    if nodes.len() < 2 || nodes[1] <= nodes[0] {
                         return table.first().copied().unwrap_or(f64::NAN);
                     }
                     let step = nodes[1] - nodes[0];
@@ -345,7 +422,7 @@ impl<'a> PopulationLikelihood<'a> {
                 };
                 self.galaxies
                     .iter()
-                    .map(|g| g.joint_log_density(interpolate))
+                    .map(|g| g.joint_log_density(interpolate, scatter_dex))
                     .sum()
             }
         };
@@ -388,5 +465,84 @@ impl LogDensity for PopulationLikelihood<'_> {
 
     fn log_density(&self, theta: &[f64], _derived: &mut [f64]) -> f64 {
         self.log_likelihood(theta)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    use rand::SeedableRng;
+    use rand_distr::{Distribution, Normal};
+
+    /// A galaxy whose 800 log10 σ/m samples are drawn from N(`centre`, `width`).
+    fn gaussian_galaxy(centre: f64, width: f64) -> GalaxyPosterior {
+        let mut rng = rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(5);
+        let normal = Normal::new(centre, width).expect("valid");
+        let samples: Vec<f64> = (0..800).map(|_| normal.sample(&mut rng)).collect();
+        GalaxyPosterior::from_samples("G", &[30.0; 800], &samples, (-2.0, 2.0), 800)
+            .expect("valid posterior")
+    }
+
+    #[test]
+    fn scatter_widens_the_kernel_as_the_convolution_integral_does() {
+        // ∫ f_h(y') N(y'; y, τ²) dy' by midpoint quadrature, f_h the galaxy's kernel density:
+        // the widened kernel must equal it (Gaussian ⊗ Gaussian; away from the lower bound).
+        let galaxy = gaussian_galaxy(0.4, 0.3);
+        let tau = 0.35;
+        for y in [-0.5, 0.1, 0.4, 1.2] {
+            let (a, b, n) = (y - 8.0 * tau, y + 8.0 * tau, 4000);
+            let step = (b - a) / f64::from(n);
+            let integral: f64 = (0..n)
+                .map(|i| {
+                    let x = a + step * (f64::from(i) + 0.5);
+                    let normal = (-0.5 * ((x - y) / tau).powi(2)).exp() / (tau * SQRT_TWO_PI);
+                    galaxy.direct_log_density(x).exp() * normal * step
+                })
+                .sum();
+            let widened = galaxy.scattered_marginal_log_density(y, tau);
+            assert!(
+                (widened - integral.ln()).abs() < 1e-3,
+                "y {y}: widened {widened}, quadrature {}",
+                integral.ln()
+            );
+        }
+        // No scatter: the tabulated density.
+        assert_eq!(
+            galaxy.scattered_marginal_log_density(0.3, 0.0).to_bits(),
+            galaxy.marginal_log_density(0.3).to_bits()
+        );
+    }
+
+    #[test]
+    fn the_scatter_coordinate_comes_last_and_enters_the_likelihood() {
+        let galaxies = [gaussian_galaxy(0.0, 0.2), gaussian_galaxy(1.0, 0.2)];
+        let plain = PopulationLikelihood::new(
+            VelocityModel::Constant,
+            Treatment::Joint,
+            10.0,
+            &galaxies,
+            &[],
+        );
+        let scattered = PopulationLikelihood::new(
+            VelocityModel::Constant,
+            Treatment::Joint,
+            10.0,
+            &galaxies,
+            &[],
+        )
+        .with_scatter(true);
+        assert_eq!(scattered.parameters().len(), 2);
+        assert_eq!(scattered.parameters()[1], SCATTER_PARAMETER);
+        // Two galaxies 1 dex apart: a constant at 0.5 with 0.5 dex of scatter beats none, and
+        // the smallest scatter reproduces the plain likelihood closely.
+        let at = |tau: f64| scattered.log_likelihood(&[0.5, tau.log10()]);
+        assert!(at(0.5) > plain.log_likelihood(&[0.5]) + 1.0);
+        assert!((at(0.01) - plain.log_likelihood(&[0.5])).abs() < 0.05);
+        assert!(
+            scattered
+                .log_likelihood(&[0.5, SCATTER_PARAMETER.upper + 0.1])
+                .is_infinite()
+        );
     }
 }

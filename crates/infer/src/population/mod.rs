@@ -30,7 +30,7 @@ use crate::sampler::{MoveMix, Observer, RunConfig};
 use crate::summary::{Interval, quantile};
 
 pub use likelihood::{
-    GalaxyPosterior, PopulationLikelihood, Treatment, constraint_log_likelihood,
+    GalaxyPosterior, PopulationLikelihood, SCATTER_PARAMETER, Treatment, constraint_log_likelihood,
     effective_sigma_m_cm2_g,
 };
 pub use models::{PopulationModel, PopulationParameter, VelocityModel};
@@ -49,6 +49,10 @@ pub struct PopulationSettings {
     pub seed: u64,
     /// Also compute each model's evidence ln Z by parallel tempering (None: skip).
     pub evidence: Option<crate::tempering::LadderConfig>,
+    /// Fit the hierarchical model: each galaxy's log10 σ_eff scatters about the model's with an
+    /// intrinsic scatter τ (dex), a population parameter (see [`likelihood`]).
+    #[serde(default)]
+    pub scatter: bool,
 }
 
 impl Default for PopulationSettings {
@@ -64,6 +68,7 @@ impl Default for PopulationSettings {
             map_starts: 6,
             seed: 1,
             evidence: None,
+            scatter: false,
         }
     }
 }
@@ -244,6 +249,9 @@ pub struct PopulationFit {
     #[serde(rename = "name")]
     pub model: VelocityModel,
     pub treatment: Treatment,
+    /// Whether the intrinsic scatter τ was fitted (then the last parameter is "tau", dex).
+    #[serde(default)]
+    pub scatter: bool,
     pub formula: String,
     pub parameters: Vec<FittedParameter>,
     pub log_likelihood_max: f64,
@@ -259,10 +267,11 @@ pub struct PopulationFit {
     pub n_samples: usize,
     /// Validity warnings (e.g. the Born regime).
     pub notes: Vec<String>,
-    /// Kept posterior samples of the log10 coordinates (not serialised).
+    /// Kept posterior samples of the log10 coordinates (not serialised); the model's
+    /// coordinates first, then log10 τ when the scatter is fitted.
     #[serde(skip)]
     pub samples: Vec<Vec<f64>>,
-    /// log10 coordinates at the maximum likelihood.
+    /// log10 coordinates at the maximum likelihood (the same order).
     pub best_theta: Vec<f64>,
     /// The Yukawa model's fixed dark-matter mass, GeV.
     pub yukawa_dm_mass_gev: f64,
@@ -283,6 +292,25 @@ pub struct Band {
 }
 
 impl PopulationFit {
+    /// The model's name, with "+ scatter" for the hierarchical model.
+    #[must_use]
+    pub fn label(&self) -> String {
+        if self.scatter {
+            format!("{} + scatter", self.model.name())
+        } else {
+            self.model.name().to_string()
+        }
+    }
+
+    /// The intrinsic scatter τ's summary (dex), when fitted.
+    #[must_use]
+    pub fn scatter_dex(&self) -> Option<&FittedParameter> {
+        self.scatter
+            .then(|| self.parameters.last())
+            .flatten()
+            .filter(|p| p.name == SCATTER_PARAMETER.name)
+    }
+
     /// The posterior band of the effective σ/m (cm²/g) at mean relative speeds `v_rel_kms`,
     /// from at most `max_draws` samples.
     #[must_use]
@@ -379,10 +407,13 @@ pub fn fit_population<O: Observer>(
         settings.yukawa_dm_mass_gev,
         galaxies,
         constraints,
-    );
-    let parameters = model.population_parameters();
+    )
+    .with_scatter(settings.scatter);
+    let parameters = density.parameters().to_vec();
     let dim = parameters.len();
-    let seed = settings.seed ^ (model as u64 + 1).wrapping_mul(0x9e37_79b9_7f4a_7c15);
+    let seed = settings.seed
+        ^ (model as u64 + 1).wrapping_mul(0x9e37_79b9_7f4a_7c15)
+        ^ if settings.scatter { 0x5ca7_7e12 } else { 0 };
     let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
     let best = maximum_likelihood(&density, settings.map_starts * dim, &mut rng)?;
 
@@ -478,6 +509,7 @@ pub fn fit_population<O: Observer>(
     Ok(PopulationFit {
         model,
         treatment,
+        scatter: settings.scatter,
         formula: model.formula().to_string(),
         parameters: fitted,
         log_likelihood_max,
