@@ -89,7 +89,7 @@ fn population_kernel_density_matches_scipy_gaussian_kde() {
             );
             // The joint treatment's kernel at a prediction equal for every sample is the same
             // density, computed directly.
-            let direct = posterior.joint_log_density(|_| y);
+            let direct = posterior.joint_log_density(|_| y, 0.0);
             assert!(
                 (direct - expected).abs() < 1e-9,
                 "direct log density at {y}: {direct} vs scipy {expected}"

@@ -176,10 +176,13 @@ fn population_and_joint_fits_recover_a_mock_catalogues_fall_off() {
         assert_eq!(scattered["treatment"], "joint");
         let tau = &parameter(&scattered, "tau")["interval"];
         let unscattered = find(&report["joint"]["models"], model);
-        let delta_bic = scattered["bic"].as_f64().expect("bic")
-            - unscattered["bic"].as_f64().expect("bic");
+        let delta_bic =
+            scattered["bic"].as_f64().expect("bic") - unscattered["bic"].as_f64().expect("bic");
         eprintln!("{model}: tau {tau}, BIC(with scatter) - BIC(without) = {delta_bic}");
-        assert!(delta_bic > -2.0, "{model}: scatter called for, ΔBIC {delta_bic}");
+        assert!(
+            delta_bic > -2.0,
+            "{model}: scatter called for, ΔBIC {delta_bic}"
+        );
     }
     let fall_off = find(hierarchical, "fall-off");
     assert_covers(&fall_off, "sigma0_m", TRUE_SIGMA0_CM2_G);

@@ -180,6 +180,34 @@ impl<D: LogDensity> LogDensity for Slice<'_, D> {
     }
 }
 
+/// Uniform draws within the bounds a ridge point tries when its neighbour's maximum is no valid
+/// start (common practice).
+const RIDGE_FALLBACK_DRAWS: usize = 256;
+
+/// The draw with the highest log-density among [`RIDGE_FALLBACK_DRAWS`] uniform draws within
+/// `bounds` (a fixed sequence for `stream`); None when none has a finite one.
+fn best_uniform_draw<D: LogDensity>(
+    density: &D,
+    bounds: &[(f64, f64)],
+    stream: u64,
+) -> Option<Vec<f64>> {
+    use rand::{RngExt, SeedableRng};
+    let mut rng = rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(0x41d6_e000 ^ stream);
+    let mut derived = vec![f64::NAN; density.n_derived()];
+    let mut best: Option<(f64, Vec<f64>)> = None;
+    for _ in 0..RIDGE_FALLBACK_DRAWS {
+        let draw: Vec<f64> = bounds
+            .iter()
+            .map(|&(lo, hi)| lo + (hi - lo) * rng.random::<f64>())
+            .collect();
+        let lp = density.log_density(&draw, &mut derived);
+        if lp.is_finite() && best.as_ref().is_none_or(|(b, _)| lp > *b) {
+            best = Some((lp, draw));
+        }
+    }
+    best.map(|(_, draw)| draw)
+}
+
 /// The posterior's ridge along coordinate `given`: at `points` values of it, the middles of
 /// equal parts of its bounds, the maximum over the other coordinates (Nelder–Mead, at
 /// most `max_iterations`), each started from its neighbour's maximum nearer `best` (a
@@ -244,7 +272,14 @@ pub fn ridge<D: LogDensity>(
             index: given,
             value: values[k],
         };
-        let estimate = nelder_mead(&slice, &rest_bounds, &start, max_iterations)?;
+        let mut estimate = nelder_mead(&slice, &rest_bounds, &start, max_iterations)?;
+        if estimate.log_posterior.is_nan() || estimate.log_posterior <= -REFUSED_COST {
+            // The neighbour's maximum has no valid model at this value (e.g. a best point in a
+            // corner of the bounds): start from the best of uniform draws within the bounds.
+            if let Some(draw) = best_uniform_draw(&slice, &rest_bounds, k as u64) {
+                estimate = nelder_mead(&slice, &rest_bounds, &draw, max_iterations)?;
+            }
+        }
         if estimate.log_posterior.is_finite() && estimate.log_posterior > -REFUSED_COST {
             found[k] = Some(MapEstimate {
                 theta: slice.full(&estimate.theta),
