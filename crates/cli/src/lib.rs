@@ -8,6 +8,7 @@ mod calibrate;
 mod check;
 mod curve;
 mod fit;
+mod forecast;
 mod mock;
 mod options;
 mod output;
@@ -22,6 +23,7 @@ pub use calibrate::CalibrateArgs;
 pub use check::CheckArgs;
 pub use curve::CurveArgs;
 pub use fit::FitArgs;
+pub use forecast::ForecastArgs;
 pub use mock::MockArgs;
 pub use population::PopulationArgs;
 
@@ -63,6 +65,9 @@ pub enum Command {
     /// Make an invented galaxy: its table and a truth file with every true parameter.
     #[command(after_help = mock::EXAMPLES)]
     Mock(Box<MockArgs>),
+    /// Forecast what a catalogue design can detect of a σ(v)/m model (power analysis).
+    #[command(after_help = forecast::EXAMPLES)]
+    Forecast(Box<ForecastArgs>),
 }
 
 /// How much to print besides results.
@@ -97,5 +102,6 @@ pub fn run(cli: &Cli) -> anyhow::Result<ExitCode> {
         Command::Calibrate(args) => calibrate::run(args, cli.verbosity()),
         Command::Merge(args) => batch::merge(args, cli.verbosity()),
         Command::Population(args) => population::run(args, cli.verbosity()),
+        Command::Forecast(args) => forecast::run(args, cli.verbosity()),
     }
 }

@@ -22,6 +22,7 @@ pub mod chain;
 pub mod diagnostics;
 mod error;
 pub mod fit;
+pub mod forecast;
 pub mod layout;
 pub mod model;
 pub mod optimize;

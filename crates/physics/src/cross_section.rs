@@ -233,6 +233,41 @@ fn natural_per_mass_to_cm2_g(sigma_gev2: f64, mass_gev: f64) -> f64 {
 }
 
 impl CrossSection {
+    /// Its kind.
+    #[must_use]
+    pub fn kind(&self) -> CrossSectionKind {
+        match self {
+            Self::Constant { .. } => CrossSectionKind::Constant,
+            Self::FallOff { .. } => CrossSectionKind::FallOff,
+            Self::Yukawa { .. } => CrossSectionKind::Yukawa,
+            Self::Resonance { .. } => CrossSectionKind::Resonance,
+        }
+    }
+
+    /// Its physical values in [`CrossSectionKind::parameters`] order (the inverse of
+    /// [`CrossSectionKind::build`]).
+    #[must_use]
+    pub fn values(&self) -> Vec<f64> {
+        match *self {
+            Self::Constant { sigma_m_cm2_g } => vec![sigma_m_cm2_g],
+            Self::FallOff {
+                sigma0_cm2_g,
+                w_kms,
+            } => vec![sigma0_cm2_g, w_kms],
+            Self::Yukawa {
+                dm_mass_gev,
+                mediator_mass_mev,
+                alpha,
+            } => vec![alpha, mediator_mass_mev, dm_mass_gev],
+            Self::Resonance {
+                dm_mass_gev,
+                delta,
+                gamma,
+                background_cm2_g,
+            } => vec![dm_mass_gev, delta, gamma, background_cm2_g],
+        }
+    }
+
     /// A velocity-independent cross-section per mass (cm²/g, ≥ 0).
     pub fn constant(sigma_m_cm2_g: f64) -> Result<Self, PhysicsError> {
         Ok(Self::Constant {
@@ -613,6 +648,15 @@ fn adaptive_simpson(f: &dyn Fn(f64) -> f64, a: f64, b: f64, tolerance: f64, dept
 mod tests {
     use super::*;
     use approx::assert_relative_eq;
+
+    #[test]
+    fn values_and_kind_invert_build() {
+        for kind in CrossSectionKind::ALL {
+            let built = kind.build(&kind.defaults()).expect("defaults are valid");
+            assert_eq!(built.kind(), kind);
+            assert_eq!(built.values(), kind.defaults());
+        }
+    }
 
     #[test]
     fn gauss_legendre_rule_is_exact_to_degree_fifteen() {

@@ -34,6 +34,7 @@ pub mod halo;
 pub mod ode;
 pub mod params;
 mod roots;
+pub mod scaling;
 pub mod sidm;
 mod special;
 pub mod units;

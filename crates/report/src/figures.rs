@@ -750,6 +750,126 @@ impl Figure for PopulationFigure {
     }
 }
 
+/// Detection power against the number of galaxies in a catalogue (a forecast).
+#[derive(Debug, Clone, PartialEq)]
+pub struct PowerFigure {
+    pub title: String,
+    /// Curves of power (0–1) against the number of galaxies.
+    pub curves: Vec<PowerCurve>,
+    /// Reference points with a symmetric error (number of galaxies, power, its standard
+    /// error), e.g. from catalogues fitted end to end.
+    pub references: Vec<(f64, f64, f64)>,
+    pub reference_label: String,
+}
+
+/// One curve of a [`PowerFigure`].
+#[derive(Debug, Clone, PartialEq)]
+pub struct PowerCurve {
+    pub label: String,
+    /// (number of galaxies, power).
+    pub points: Vec<(f64, f64)>,
+    pub dashed: bool,
+}
+
+impl Figure for PowerFigure {
+    fn draw<DB: DrawingBackend>(
+        &self,
+        root: &DrawingArea<DB, Shift>,
+        scale: Scale,
+    ) -> Result<(), ReportError> {
+        root.fill(&WHITE).map_err(draw_error)?;
+        let x_max = self
+            .curves
+            .iter()
+            .flat_map(|c| c.points.iter().map(|p| p.0))
+            .chain(self.references.iter().map(|r| r.0))
+            .filter(|x| x.is_finite())
+            .fold(1.0, f64::max);
+        let mut chart = ChartBuilder::on(root)
+            .caption(&self.title, scale.font(theme::TITLE_SIZE))
+            .margin(scale.px(16))
+            .x_label_area_size(scale.px(64))
+            .y_label_area_size(scale.px(90))
+            .build_cartesian_2d(0.0..x_max * 1.08, 0.0..1.05)
+            .map_err(draw_error)?;
+        chart
+            .configure_mesh()
+            .disable_mesh()
+            .axis_style(BLACK.stroke_width(scale.px(1)))
+            .set_all_tick_mark_size(scale.px(5))
+            .x_desc("Galaxies in the catalogue")
+            .y_desc("Detection power (fraction of catalogues)")
+            .label_style(scale.font(theme::TICK_SIZE))
+            .axis_desc_style(scale.font(theme::LABEL_SIZE))
+            .draw()
+            .map_err(draw_error)?;
+        let mut labels: Vec<&str> = Vec::new();
+        for (k, curve) in self.curves.iter().enumerate() {
+            let colour = theme::CURVES[k % theme::CURVES.len()];
+            let style = colour.stroke_width(scale.px(3));
+            let end = scale.offset(if curve.dashed { 12 } else { 24 });
+            let drawn = if curve.dashed {
+                chart
+                    .draw_series(DashedLineSeries::new(
+                        curve.points.clone(),
+                        scale.px(10),
+                        scale.px(6),
+                        style,
+                    ))
+                    .map_err(draw_error)?
+            } else {
+                chart
+                    .draw_series(LineSeries::new(curve.points.clone(), style))
+                    .map_err(draw_error)?
+            };
+            drawn
+                .label(curve.label.as_str())
+                .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + end, y)], style));
+            labels.push(curve.label.as_str());
+            chart
+                .draw_series(
+                    curve
+                        .points
+                        .iter()
+                        .map(|&p| Circle::new(p, scale.px(5), colour.filled())),
+                )
+                .map_err(draw_error)?;
+        }
+        if !self.references.is_empty() {
+            let style = theme::DATA.stroke_width(scale.px(2));
+            for &(x, y, error) in &self.references {
+                chart
+                    .draw_series(std::iter::once(ErrorBar::new_vertical(
+                        x,
+                        (y - error).max(0.0),
+                        y,
+                        (y + error).min(1.0),
+                        style,
+                        scale.px(8),
+                    )))
+                    .map_err(draw_error)?;
+            }
+            let (size, lead) = (scale.px(7), scale.offset(12));
+            chart
+                .draw_series(
+                    self.references
+                        .iter()
+                        .map(|&(x, y, _)| TriangleMarker::new((x, y), size, theme::DATA.filled())),
+                )
+                .map_err(draw_error)?
+                .label(self.reference_label.as_str())
+                .legend(move |(x, y)| {
+                    TriangleMarker::new((x + lead, y), size, theme::DATA.filled())
+                });
+            labels.push(self.reference_label.as_str());
+        }
+        if !labels.is_empty() {
+            draw_legend(&mut chart, LegendCorner::LowerRight, &labels, scale)?;
+        }
+        Ok(())
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

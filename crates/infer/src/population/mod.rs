@@ -386,6 +386,53 @@ fn maximum_likelihood(
     )
 }
 
+/// A population model's maximum likelihood alone, without a posterior sample.
+#[derive(Debug, Clone, PartialEq)]
+pub struct BestFit {
+    /// log10 coordinates at the maximum (the model's, then log10 τ with scatter).
+    pub theta: Vec<f64>,
+    pub log_likelihood_max: f64,
+    pub aic: f64,
+    pub bic: f64,
+}
+
+/// The maximum likelihood of one population model under one treatment (Nelder–Mead from
+/// several random starts), with its AIC and BIC: what a forecast needs of each of many invented
+/// catalogues, at a small fraction of [`fit_population`]'s cost.
+pub fn best_fit_population(
+    model: VelocityModel,
+    treatment: Treatment,
+    galaxies: &[GalaxyPosterior],
+    constraints: &[OutsideConstraint],
+    settings: &PopulationSettings,
+) -> Result<BestFit, InferError> {
+    if galaxies.is_empty() && constraints.is_empty() {
+        return Err(InferError::Config(
+            "a population fit needs at least one galaxy posterior or outside constraint".into(),
+        ));
+    }
+    let density = PopulationLikelihood::new(
+        model,
+        treatment,
+        settings.yukawa_dm_mass_gev,
+        galaxies,
+        constraints,
+    )
+    .with_scatter(settings.scatter);
+    let dim = density.parameters().len();
+    let mut rng = Xoshiro256PlusPlus::seed_from_u64(
+        settings.seed ^ (model as u64 + 1).wrapping_mul(0x9e37_79b9_7f4a_7c15),
+    );
+    let best = maximum_likelihood(&density, settings.map_starts * dim, &mut rng)?;
+    let (aic, bic) = information_criteria(dim, density.n_data(), best.log_posterior);
+    Ok(BestFit {
+        theta: best.theta,
+        log_likelihood_max: best.log_posterior,
+        aic,
+        bic,
+    })
+}
+
 /// Fits one population model under one treatment: maximum likelihood, then the ensemble
 /// sampler with flat priors on the log10 coordinates.
 pub fn fit_population<O: Observer>(
