@@ -12,7 +12,8 @@ use crate::Verbosity;
 pub(crate) const EXAMPLES: &str = "\
 Examples:
   caldera calibrate --mocks 200 --seed 1            # the full coverage run (minutes on 2 cores)
-  caldera calibrate --mocks 24 --max-steps 6000 --json";
+  caldera calibrate --mocks 24 --max-steps 6000 --json
+  caldera calibrate --mocks 200 --stellar-mass-prior  # with the stellar-to-halo mass prior";
 
 /// Arguments of `caldera calibrate`.
 #[derive(Debug, Args)]
@@ -29,12 +30,18 @@ pub struct CalibrateArgs {
     /// Print the report as JSON.
     #[arg(long)]
     pub json: bool,
+    /// Calibrate with the stellar-to-halo mass prior on (the mocks drawn from it too).
+    #[arg(long)]
+    pub stellar_mass_prior: bool,
 }
 
 /// Runs `caldera calibrate`.
 pub(crate) fn run(args: &CalibrateArgs, verbosity: Verbosity) -> anyhow::Result<ExitCode> {
     let config = FitConfig {
-        priors: calibration_priors(),
+        priors: caldera_infer::priors::Priors {
+            stellar_mass_halo: args.stellar_mass_prior,
+            ..calibration_priors()
+        },
         run: RunConfig {
             max_steps: args.max_steps,
             ..RunConfig::default()

@@ -140,6 +140,12 @@ pub struct FitSettings {
     /// lowest only).
     #[arg(long, value_enum, default_value_t = CoordinateChoice::Core)]
     pub sidm_coordinates: CoordinateChoice,
+    /// Apply the stellar-to-halo mass prior (Moster, Naab & White 2013, 0.15 dex scatter) to the
+    /// stellar mass at the sampled Υ's: the table's stellar_mass_msun metadata at Υ = 1 when
+    /// given, else the disk and bulge curves' V²r/G at the last radius (a spherical estimate
+    /// that misses stars beyond it). Not for halos without an M200 (pseudo-isothermal).
+    #[arg(long)]
+    pub stellar_mass_prior: bool,
     /// Keep the distance fixed at the table's value.
     #[arg(long)]
     pub fixed_distance: bool,
@@ -248,6 +254,7 @@ impl FitSettings {
             vary_inclination: !self.fixed_inclination,
             error_floor_kms: self.error_floor,
             einasto_alpha_fixed: self.einasto_alpha,
+            stellar_mass_halo: self.stellar_mass_prior,
             ..Priors::default()
         };
         Ok(FitConfig {

@@ -30,6 +30,7 @@ Examples:
   caldera forecast --truth fall-off:sigma0_m=20,w=150          # 14 galaxies, V200 30-200 km/s
   caldera forecast --truth fall-off:sigma0_m=20,w=150 --design 20-60:10 --velocity-error 0.1
   caldera forecast --truth constant:sigma_m=2 --alternative fall-off --end-to-end 10
+  caldera forecast --truth fall-off:sigma0_m=20,w=150 --stellar-mass-prior
 
 The design: galaxies per V200 range (km/s), each rotation curve measured at --points radii out
 to --extent times R200, with fractional errors --velocity-error and a floor --error-floor (km/s).
@@ -86,6 +87,10 @@ pub struct ForecastArgs {
     /// Step cap of each galaxy's fit.
     #[arg(long, default_value_t = 20_000)]
     pub max_steps: usize,
+    /// Fit each galaxy with the stellar-to-halo mass prior (as `caldera fit
+    /// --stellar-mass-prior`; the invented galaxies' stars follow the same relation).
+    #[arg(long)]
+    pub stellar_mass_prior: bool,
     #[arg(long, default_value_t = 1)]
     pub seed: u64,
     /// Folder for forecast.json and power.svg/png.
@@ -149,9 +154,14 @@ fn spec_text(cross_section: &caldera_physics::CrossSection) -> String {
 fn text_report(report: &Report) -> String {
     let f = &report.forecast;
     let mut text = format!(
-        "truth: {}\ncompared: constant σ/m against {}\ndesign: {} galaxies ({}), {} points to {} R200, errors {:.0}% ⊕ {} km/s\npool: {} invented galaxies fitted end to end ({} unconverged) in {:.0} s; catalogues compared in {:.1} s\n\n",
+        "truth: {}\ncompared: constant σ/m against {}\nper-galaxy fits: {}\ndesign: {} galaxies ({}), {} points to {} R200, errors {:.0}% ⊕ {} km/s\npool: {} invented galaxies fitted end to end ({} unconverged) in {:.0} s; catalogues compared in {:.1} s\n\n",
         spec_text(&f.truth),
         f.alternative.name(),
+        if f.stellar_mass_prior {
+            "SIDM, with the stellar-to-halo mass prior (Moster et al. 2013)"
+        } else {
+            "SIDM, without a stellar-to-halo mass prior"
+        },
         f.design.n_galaxies(),
         f.design
             .bins
@@ -318,6 +328,10 @@ pub(crate) fn run(args: &ForecastArgs, verbosity: Verbosity) -> anyhow::Result<E
             run: RunConfig {
                 max_steps: args.max_steps,
                 ..RunConfig::default()
+            },
+            priors: caldera_infer::priors::Priors {
+                stellar_mass_halo: args.stellar_mass_prior,
+                ..caldera_infer::priors::Priors::default()
             },
             ..FitConfig::default()
         },

@@ -18,6 +18,11 @@ pub struct GalaxyMeta {
     pub inclination_err_deg: Option<f64>,
     /// Halo age for the SIDM rate condition, Gyr.
     pub age_gyr: Option<f64>,
+    /// Stellar mass of the disk and bulge at mass-to-light ratio Υ = 1 (their luminosity in
+    /// solar units times 1 Msun/Lsun) at the table's distance, Msun; used by the
+    /// stellar-to-halo mass prior.
+    #[serde(default)]
+    pub stellar_mass_msun: Option<f64>,
     pub notes: String,
 }
 

@@ -108,7 +108,8 @@ pub struct CoverageReport {
 
 /// Draws true parameters from exactly the fit's prior, by a path independent of the sampler's:
 /// the outer halo (log V200 uniform, log c200 around the Dutton–Macciò relation or uniform,
-/// within bounds), σ/m and the nuisances from their priors; the core is the halo-first search's
+/// within bounds), σ/m and the nuisances from their priors, times the stellar-to-halo mass
+/// prior when it is on (by rejection); the core is the halo-first search's
 /// lowest-density core for that halo (the default [`SidmBranches`]), kept when it lies within
 /// the sampled bounds and the fit's prior admits it. None after many rejections, or when the
 /// priors admit every branch (not calibrated here).
@@ -141,6 +142,13 @@ pub fn draw_from_prior(model: &GalaxyModel, rng: &mut Xoshiro256PlusPlus) -> Opt
         else {
             continue;
         };
+        // The stellar-to-halo mass prior, when on, multiplies the others: rejection with the
+        // acceptance probability exp(−½ z²) ≤ 1 draws from their product.
+        if priors.stellar_mass_halo
+            && rng.random::<f64>() >= model.stellar_mass_log_prior(&values, m200).exp()
+        {
+            continue;
+        }
         let log_c200 = if priors.concentration_mass {
             let z: f64 = StandardNormal.sample(rng);
             priors.concentration_relation.log10_c200(m200, &cosmology)

@@ -258,6 +258,8 @@ pub struct Forecast {
     pub design: Design,
     pub truth: CrossSection,
     pub alternative: VelocityModel,
+    /// Whether the per-galaxy fits used the stellar-to-halo mass prior.
+    pub stellar_mass_prior: bool,
     /// Galaxies fitted end to end (the pool).
     pub pool_size: usize,
     pub pool_unconverged: usize,
@@ -339,7 +341,9 @@ pub fn draw_design_galaxy(
             velocity_dependence: Some(*truth),
         };
         match generate(&spec) {
-            Ok((table, mock_truth)) => {
+            Ok((mut table, mock_truth)) => {
+                // The stars' mass at Υ = 1 (the column's), as a photometric table would give it.
+                table.meta.stellar_mass_msun = Some(stellar_mass / upsilon_disk);
                 let Some(sidm) = mock_truth.sidm else {
                     last_error = "the mock has no SIDM halo".into();
                     continue;
@@ -633,6 +637,7 @@ pub fn forecast(
         design: design.clone(),
         truth: settings.truth,
         alternative: settings.alternative,
+        stellar_mass_prior: settings.fit.priors.stellar_mass_halo,
         pool_size: pool.len(),
         pool_unconverged: pool.iter().filter(|m| !m.converged).count(),
         pool: pool.iter().map(PoolEntry::from).collect(),

@@ -194,6 +194,11 @@ pub struct Priors {
     /// The coordinates an SIDM fit samples in (the prior is the same in both).
     #[serde(default)]
     pub sidm_coordinates: SidmCoordinates,
+    /// The stellar-to-halo mass prior: log10 of the stellar mass at the sampled Υ's normal
+    /// around the Moster, Naab & White (2013) relation at the halo's M200, with its 0.15 dex
+    /// scatter ([`caldera_physics::scaling::MOSTER_2013`]). Off by default.
+    #[serde(default)]
+    pub stellar_mass_halo: bool,
 }
 
 impl Default for Priors {
@@ -213,6 +218,7 @@ impl Default for Priors {
             einasto_alpha_fixed: None,
             sidm_branches: SidmBranches::default(),
             sidm_coordinates: SidmCoordinates::default(),
+            stellar_mass_halo: false,
         }
     }
 }
