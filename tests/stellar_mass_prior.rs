@@ -82,9 +82,10 @@ fn metadata_gives_the_stellar_mass_when_present() {
         stellar_mass_halo: true,
         ..Priors::default()
     };
-    let error = GalaxyModel::new(&empty, HaloModel::Nfw, priors, Cosmology::default(), None)
-        .err()
-        .expect("refused");
+    let Err(error) = GalaxyModel::new(&empty, HaloModel::Nfw, priors, Cosmology::default(), None)
+    else {
+        panic!("a table without stars was accepted");
+    };
     assert!(error.to_string().contains("invented disk"), "{error}");
 }
 

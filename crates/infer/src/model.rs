@@ -657,10 +657,7 @@ impl GalaxyModel {
             return f64::NEG_INFINITY;
         }
         let stellar = if self.stellar_mass_unit.is_some() {
-            self.stellar_mass_log_prior(
-                &self.layout.values(theta),
-                derived[Derived::M200 as usize],
-            )
+            self.stellar_mass_log_prior(&self.layout.values(theta), derived[Derived::M200 as usize])
         } else {
             0.0
         };

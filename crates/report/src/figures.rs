@@ -799,6 +799,8 @@ impl Figure for PowerFigure {
             .set_all_tick_mark_size(scale.px(5))
             .x_desc("Galaxies in the catalogue")
             .y_desc("Detection power (fraction of catalogues)")
+            .x_label_formatter(&|x| format!("{x:.0}"))
+            .y_label_formatter(&|y| format!("{y:.1}"))
             .label_style(scale.font(theme::TICK_SIZE))
             .axis_desc_style(scale.font(theme::LABEL_SIZE))
             .draw()
