@@ -53,7 +53,7 @@ fn settings(truth: CrossSection) -> ForecastSettings {
 fn catalogue(settings: &ForecastSettings) -> Vec<GalaxyPosterior> {
     let design = design();
     let counts: Vec<usize> = design.bins.iter().map(|b| b.count).collect();
-    let mocks = fit_mocks(&design, &counts, settings, settings.seed, &|_, _| {}).expect("fits");
+    let mocks = fit_mocks(&design, &counts, settings, settings.seed, &|_, _| true).expect("fits");
     let unconverged = mocks.iter().filter(|m| !m.converged).count();
     assert_eq!(unconverged, 0, "every invented galaxy's chain converges");
     mocks.into_iter().map(|m| m.posterior).collect()

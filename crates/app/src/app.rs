@@ -6,13 +6,19 @@ use std::path::{Path, PathBuf};
 
 use caldera_data::session::{GalaxySettings, HaloModel, save_session};
 use caldera_data::{Catalogue, ColumnMapping, DataError, GalaxyTable, ReadOptions, write_atomic};
-use caldera_infer::population::{GalaxyPosterior, PopulationFit, PopulationSettings};
+use caldera_infer::InferError;
+use caldera_infer::forecast::{Design, DesignBin, ForecastSettings};
+use caldera_infer::population::{
+    GalaxyPosterior, PopulationFit, PopulationSettings, VelocityModel,
+};
+use caldera_infer::priors::Priors;
 use caldera_infer::run_folder::RunFolder;
 use caldera_infer::sampler::RunConfig;
 use caldera_infer::session::Session;
 use caldera_infer::summary::clearly_preferred;
 use caldera_infer::tempering::LadderConfig;
 use caldera_infer::{FitConfig, FitSummary};
+use caldera_physics::units::DEFAULT_HALO_AGE_GYR;
 use caldera_report::figures::{
     PopulationCurve, PopulationFigure, PopulationPoint, RotationCurveFigure, save_figure,
 };
@@ -26,9 +32,21 @@ use crate::state::{
     AppOptions, GalaxyEntry, MappingStep, Message, MessageKind, Runtime, SortKey, View,
 };
 use crate::worker::{
-    LiveRequest, start_catalogue_load, start_fit, start_folder_posteriors_load, start_live_search,
-    start_population_fit, start_session_load, start_table_load,
+    LiveRequest, start_catalogue_load, start_fit, start_folder_posteriors_load, start_forecast,
+    start_live_search, start_population_fit, start_session_load, start_table_load,
 };
+
+/// The forecast panel's starting design, and the settings it does not expose (those of
+/// `caldera forecast`'s defaults, with a pool of one galaxy per design galaxy and fewer sampled
+/// catalogues, so that a forecast takes minutes on a laptop).
+pub(crate) const DEFAULT_FORECAST_DESIGN: &str = "30-60:5,60-120:5,120-200:4";
+pub(crate) const FORECAST_EXTENT_R200: f64 = 0.1;
+pub(crate) const FORECAST_POINTS: usize = 20;
+pub(crate) const FORECAST_ERROR_FRACTION: f64 = 0.05;
+pub(crate) const FORECAST_ERROR_FLOOR_KMS: f64 = 1.0;
+const FORECAST_SCALES: [f64; 4] = [0.5, 1.0, 2.0, 4.0];
+const FORECAST_REPLICAS: usize = 200;
+const FORECAST_INTERVAL_CATALOGUES: usize = 2;
 
 /// The outputs a job in `slot` has produced since the last frame; the slot empties once the job
 /// has finished.
@@ -112,6 +130,10 @@ impl CalderaApp {
                 pending_selection: None,
                 folder_load: None,
                 folder_posteriors: None,
+                forecast_design: DEFAULT_FORECAST_DESIGN.to_string(),
+                forecast_stellar_mass: true,
+                forecast_job: None,
+                forecast: None,
             },
         };
         if let Some(path) = options.session {
@@ -162,6 +184,18 @@ impl CalderaApp {
     #[must_use]
     pub fn fitting_population(&self) -> bool {
         self.runtime.population_job.is_some()
+    }
+
+    /// Whether a forecast runs.
+    #[must_use]
+    pub fn forecasting(&self) -> bool {
+        self.runtime.forecast_job.is_some()
+    }
+
+    /// The last finished forecast.
+    #[must_use]
+    pub fn forecast(&self) -> Option<&caldera_infer::forecast::Forecast> {
+        self.runtime.forecast.as_ref()
     }
 
     /// The particle model drawn in the population view.
@@ -543,6 +577,7 @@ impl CalderaApp {
         }
         self.poll_worker();
         self.poll_population();
+        self.poll_forecast();
         self.poll_live_search();
         if let Some(path) = take_outputs(&mut self.runtime.dialog)
             .into_iter()
@@ -589,11 +624,118 @@ impl CalderaApp {
         r.fit.is_some()
             || r.dialog.is_some()
             || r.population_job.is_some()
+            || r.forecast_job.is_some()
             || r.loading.is_some()
             || r.folder_load.is_some()
             || r.table_load.is_some()
             || r.session_load.is_some()
             || r.live_search.is_some()
+    }
+
+    fn poll_forecast(&mut self) {
+        let Some(job) = &mut self.runtime.forecast_job else {
+            return;
+        };
+        let outputs = job.poll();
+        if !job.is_done() {
+            return;
+        }
+        let cancelled = job.cancel_requested();
+        self.runtime.forecast_job = None;
+        for outcome in outputs {
+            match outcome {
+                Ok(forecast) => {
+                    let at_design = forecast
+                        .power
+                        .iter()
+                        .find(|p| p.n_galaxies == forecast.design.n_galaxies());
+                    if let Some(p) = at_design {
+                        self.say(
+                            MessageKind::Result,
+                            format!(
+                                "forecast: a catalogue of {} detects {} against a constant σ/m (ΔBIC ≥ 6) in {:.0}% of draws",
+                                if p.n_galaxies == 1 {
+                                    "1 galaxy".to_string()
+                                } else {
+                                    format!("{} galaxies", p.n_galaxies)
+                                },
+                                forecast.alternative.name(),
+                                100.0 * p.power_strong
+                            ),
+                        );
+                    }
+                    self.runtime.forecast = Some(forecast);
+                }
+                Err(InferError::Cancelled) => {}
+                Err(e) => self.say(MessageKind::Error, format!("forecast failed: {e}")),
+            }
+        }
+        if cancelled {
+            self.say(MessageKind::Warning, "forecast cancelled");
+        }
+    }
+
+    /// Starts a forecast for the particle model and the forecast panel's design.
+    fn start_forecast(&mut self) {
+        if self.runtime.forecast_job.is_some() {
+            return;
+        }
+        let bins = match DesignBin::parse_list(&self.runtime.forecast_design) {
+            Ok(bins) => bins,
+            Err(e) => {
+                self.say(MessageKind::Error, format!("forecast: {e}"));
+                return;
+            }
+        };
+        let truth = match self.runtime.particle.cross_section() {
+            Ok(truth) => truth,
+            Err(e) => {
+                self.say(
+                    MessageKind::Error,
+                    format!("forecast: the particle model: {e}"),
+                );
+                return;
+            }
+        };
+        let alternative = match truth.kind() {
+            VelocityModel::Constant => VelocityModel::FallOff,
+            kind => kind,
+        };
+        let design = Design {
+            bins,
+            extent_r200: FORECAST_EXTENT_R200,
+            points: FORECAST_POINTS,
+            error_fraction: FORECAST_ERROR_FRACTION,
+            error_floor_kms: FORECAST_ERROR_FLOOR_KMS,
+            age_gyr: self.session.fit.age_gyr.unwrap_or(DEFAULT_HALO_AGE_GYR),
+        };
+        let yukawa_dm_mass_gev = match truth {
+            caldera_physics::CrossSection::Yukawa { dm_mass_gev, .. } => dm_mass_gev,
+            _ => caldera_physics::cross_section::DEFAULT_YUKAWA_DM_MASS_GEV,
+        };
+        let settings = ForecastSettings {
+            truth,
+            alternative,
+            scales: FORECAST_SCALES.to_vec(),
+            replicas: FORECAST_REPLICAS,
+            pool_factor: 1,
+            interval_replicas: FORECAST_INTERVAL_CATALOGUES,
+            seed: self.session.fit.seed,
+            fit: FitConfig {
+                priors: Priors {
+                    stellar_mass_halo: self.runtime.forecast_stellar_mass,
+                    ..Priors::default()
+                },
+                seed: self.session.fit.seed,
+                ..FitConfig::default()
+            },
+            population: PopulationSettings {
+                yukawa_dm_mass_gev,
+                seed: self.session.fit.seed,
+                ..PopulationSettings::default()
+            },
+        };
+        self.runtime.forecast_job = Some(start_forecast(design, settings));
     }
 
     fn poll_population(&mut self) {
@@ -729,6 +871,18 @@ impl CalderaApp {
             Command::Evidence(on) => {
                 self.session.fit.evidence = on.then(LadderConfig::default);
                 self.runtime.dirty = true;
+            }
+            Command::StellarMassPrior(on) => {
+                self.session.fit.priors.stellar_mass_halo = on;
+                self.runtime.dirty = true;
+            }
+            Command::ForecastDesign(text) => self.runtime.forecast_design = text,
+            Command::ForecastStellarMass(on) => self.runtime.forecast_stellar_mass = on,
+            Command::Forecast => self.start_forecast(),
+            Command::CancelForecast => {
+                if let Some(job) = &self.runtime.forecast_job {
+                    job.cancel();
+                }
             }
             Command::CancelPopulationFit => {
                 if let Some(job) = &self.runtime.population_job {

@@ -38,4 +38,12 @@ pub enum Command {
     ExcludeUnconverged(bool),
     /// Compute the Bayesian evidence in the next fits (or not).
     Evidence(bool),
+    /// Apply the stellar-to-halo mass prior in the next fits (or not).
+    StellarMassPrior(bool),
+    /// The forecast panel's design text and prior choice.
+    ForecastDesign(String),
+    ForecastStellarMass(bool),
+    /// Run a forecast for the particle model, or stop the running one.
+    Forecast,
+    CancelForecast,
 }

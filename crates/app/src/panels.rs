@@ -436,6 +436,16 @@ impl CalderaApp {
                 {
                     commands.push(Command::Evidence(evidence));
                 }
+                let mut stellar = self.session.fit.priors.stellar_mass_halo;
+                if ui
+                    .checkbox(&mut stellar, "Stellar-to-halo mass prior")
+                    .on_hover_text(
+                        "log10 of the stellar mass at the sampled Υ's normal around the Moster, Naab & White (2013) relation at the halo's M200, 0.15 dex scatter. The stellar mass at Υ = 1 is the table's stellar_mass_msun, else V²r/G of the disk and bulge curves at the last radius (a spherical estimate). Not applied to halos without M200 (pseudo-isothermal).",
+                    )
+                    .changed()
+                {
+                    commands.push(Command::StellarMassPrior(stellar));
+                }
             }
         }
         if let Some(result) = self.session.result(&name, settings.model) {
@@ -1066,11 +1076,16 @@ fn prior_summary(priors: &caldera_infer::priors::Priors, model: HaloModel) -> St
             crate::format::significant(10f64.powf(v_hi), 2)
         )
     };
+    let stellar = if priors.stellar_mass_halo && model != HaloModel::PseudoIsothermal {
+        "; M* ~ Moster et al. (2013) ± 0.15 dex"
+    } else {
+        ""
+    };
     match model {
         HaloModel::Sidm => {
             let xs = priors.cross_section;
             format!(
-                "Prior: {outer}; σ/m {} {}–{} cm²/g; {} core",
+                "Prior: {outer}{stellar}; σ/m {} {}–{} cm²/g; {} core",
                 if xs.logarithmic {
                     "log-uniform"
                 } else {
@@ -1087,7 +1102,7 @@ fn prior_summary(priors: &caldera_infer::priors::Priors, model: HaloModel) -> St
         HaloModel::PseudoIsothermal => {
             "Prior: log ρ0 and log r_c uniform (no c200, no concentration prior)".to_string()
         }
-        _ => format!("Prior: {outer}"),
+        _ => format!("Prior: {outer}{stellar}"),
     }
 }
 

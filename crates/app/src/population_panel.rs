@@ -205,5 +205,123 @@ impl CalderaApp {
                 });
             }
         }
+        self.forecast_ui(ui, commands);
+    }
+
+    /// The forecast section: what a catalogue of a design could detect if the particle model
+    /// were true.
+    fn forecast_ui(&self, ui: &mut egui::Ui, commands: &mut Vec<Command>) {
+        ui.separator();
+        ui.heading("Forecast");
+        let alternative = match self.runtime.particle.kind {
+            VelocityModel::Constant => VelocityModel::FallOff,
+            kind => kind,
+        };
+        ui.label(format!(
+            "If the particle model above were true, how often would a catalogue of this design prefer {} over a constant σ/m? Invented galaxies are fitted end to end, then catalogues of 0.5–4 times the design are drawn from them and compared by BIC.",
+            alternative.name()
+        ));
+        let mut design = self.runtime.forecast_design.clone();
+        ui.horizontal(|ui| {
+            ui.label("Galaxies per V200 range [km/s]");
+            ui.add(egui::TextEdit::singleline(&mut design).desired_width(200.0))
+                .on_hover_text("LOW-HIGH:COUNT, comma-separated, e.g. 30-60:5,60-120:5,120-200:4");
+        });
+        if design != self.runtime.forecast_design {
+            commands.push(Command::ForecastDesign(design));
+        }
+        ui.label(
+            RichText::new(format!(
+                "{} points to {} R200, errors {:.0}% ⊕ {} km/s; distance and inclination known (an optimistic case).",
+                crate::app::FORECAST_POINTS,
+                crate::app::FORECAST_EXTENT_R200,
+                100.0 * crate::app::FORECAST_ERROR_FRACTION,
+                crate::app::FORECAST_ERROR_FLOOR_KMS
+            ))
+            .small(),
+        );
+        let mut stellar = self.runtime.forecast_stellar_mass;
+        if ui
+            .checkbox(&mut stellar, "Fit with the stellar-to-halo mass prior")
+            .on_hover_text("Each invented galaxy is fitted with the Moster et al. (2013) prior on its stellar mass, as a fit with that box ticked in the Fit panel")
+            .changed()
+        {
+            commands.push(Command::ForecastStellarMass(stellar));
+        }
+        if let Some(job) = &self.runtime.forecast_job {
+            let (done, total) = job.latest().copied().unwrap_or((0, 0));
+            let fraction = if total > 0 {
+                done as f32 / total as f32
+            } else {
+                0.0
+            };
+            ui.add(
+                egui::ProgressBar::new(fraction)
+                    .text(format!("{}: {done} of {total} invented galaxies fitted", job.label)),
+            );
+            if ui.button("Cancel forecast").clicked() {
+                commands.push(Command::CancelForecast);
+            }
+        } else if ui
+            .button("Run forecast")
+            .on_hover_text("Minutes: one SIDM fit per design galaxy (a few seconds each on all cores), then 200 catalogues per size")
+            .clicked()
+        {
+            commands.push(Command::Forecast);
+        }
+        let Some(forecast) = &self.runtime.forecast else {
+            return;
+        };
+        ui.label(format!(
+            "{} against a constant σ/m; {} invented galaxies{}",
+            forecast.alternative.name(),
+            forecast.pool_size,
+            if forecast.pool_unconverged > 0 {
+                format!(" ({} unconverged)", forecast.pool_unconverged)
+            } else {
+                String::new()
+            }
+        ));
+        egui::Grid::new("forecast power")
+            .striped(true)
+            .show(ui, |ui| {
+                ui.strong("galaxies");
+                ui.strong("ΔBIC median [16–84%]");
+                ui.strong("P(ΔBIC ≥ 6)");
+                ui.strong("P(ΔBIC ≥ 2)");
+                ui.end_row();
+                for p in &forecast.power {
+                    ui.label(format!(
+                        "{}{}",
+                        p.n_galaxies,
+                        if p.repeats_pool_galaxies { " *" } else { "" }
+                    ));
+                    ui.label(format!(
+                        "{:.1} [{:.1}, {:.1}]",
+                        p.median_delta_bic, p.p16_delta_bic, p.p84_delta_bic
+                    ));
+                    ui.label(format!("{:.2}", p.power_strong));
+                    ui.label(format!("{:.2}", p.power_positive));
+                    ui.end_row();
+                }
+            });
+        ui.label(
+            RichText::new(
+                "ΔBIC = BIC(constant) − BIC(model): ≥ 6 strong, ≥ 2 positive (Kass & Raftery scale, common practice). * the catalogue repeats invented galaxies (its spread is too narrow).",
+            )
+            .small(),
+        );
+        for i in &forecast.intervals {
+            ui.label(format!(
+                "{}: expected ±{:.2} dex (16–84%), median {} {}{}",
+                i.name,
+                i.median_half_width_dex,
+                significant(i.median_of_medians, 3),
+                i.unit,
+                i.truth
+                    .map(|t| format!(" (truth {} {})", significant(t, 3), i.unit))
+                    .unwrap_or_default()
+            ));
+        }
     }
 }

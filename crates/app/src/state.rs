@@ -15,8 +15,8 @@ use crate::jobs::Job;
 use crate::live::{LiveCurve, LiveError, SidmCore};
 use crate::population::{ParticleModel, PopulationInputs};
 use crate::worker::{
-    CatalogueLoad, FitOutput, FitProgress, FolderLoad, LiveKey, LiveRequest, LiveSearch,
-    PopulationProgress, SessionLoad, TableLoad,
+    CatalogueLoad, FitOutput, FitProgress, FolderLoad, ForecastJob, LiveKey, LiveRequest,
+    LiveSearch, PopulationProgress, SessionLoad, TableLoad,
 };
 
 /// How serious a message is (the theme gives each its colour).
@@ -158,4 +158,10 @@ pub(crate) struct Runtime {
     pub(crate) population_partial: Vec<PopulationFit>,
     pub(crate) population: Option<Vec<PopulationFit>>,
     pub(crate) population_inputs: Option<PopulationInputs>,
+    /// The forecast panel: its design (galaxies per V200 range), whether its fits use the
+    /// stellar-to-halo mass prior, the running job and the last result.
+    pub(crate) forecast_design: String,
+    pub(crate) forecast_stellar_mass: bool,
+    pub(crate) forecast_job: Option<ForecastJob>,
+    pub(crate) forecast: Option<caldera_infer::forecast::Forecast>,
 }

@@ -5,6 +5,7 @@ use std::path::PathBuf;
 
 use caldera_data::session::{GalaxySettings, HaloModel, load_session};
 use caldera_data::{Catalogue, DataError, GalaxyTable, ReadOptions, load_catalogue, read_table};
+use caldera_infer::forecast::{Design, Forecast, ForecastSettings, forecast};
 use caldera_infer::population::{
     FolderPosteriors, GalaxyPosterior, PopulationFit, PopulationSettings, Treatment, VelocityModel,
     fit_population, load_folder_posteriors,
@@ -99,6 +100,21 @@ pub fn start_population_fit(
                 return;
             }
         }
+    })
+}
+
+/// A forecast: progress is (invented galaxies fitted, of all).
+pub type ForecastJob = Job<(usize, usize), Result<Forecast, InferError>>;
+
+/// Runs a forecast ([`caldera_infer::forecast::forecast`]) off the UI thread.
+pub fn start_forecast(design: Design, settings: ForecastSettings) -> ForecastJob {
+    let label = format!("forecast for {} galaxies", design.n_galaxies());
+    Job::spawn(label, move |ctx| {
+        let result = forecast(&design, &settings, &|done, total| {
+            ctx.progress((done, total));
+            !ctx.cancelled()
+        });
+        ctx.output(result);
     })
 }
 

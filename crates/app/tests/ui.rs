@@ -526,3 +526,50 @@ fn the_model_comparison_shows_the_evidence_when_asked() {
     let _ = harness.get_by_label(&format!("ln Z = {z:.2} ± {e:.2}"));
     std::fs::remove_dir_all(&export).ok();
 }
+
+#[test]
+fn the_forecast_panel_runs_a_forecast_for_the_particle_model() {
+    // The Population view's forecast: a one-galaxy design typed in, the run's progress, and
+    // the power table for the default particle model (constant σ/m: compared against a
+    // fall-off).
+    let (options, export) = options("forecast");
+    let mut harness = harness(options);
+    harness.get_by_label("Population").click();
+    harness.run();
+    let _ = harness.get_by_label_contains("prefer fall-off over a constant σ/m");
+    let field = harness.get_by_role(Role::TextInput);
+    field.click();
+    harness.run();
+    harness.key_press_modifiers(egui::Modifiers::COMMAND, egui::Key::A);
+    harness.run();
+    harness.get_by_role(Role::TextInput).type_text("30-60:1");
+    harness.run();
+    harness
+        .get_by_label("Fit with the stellar-to-halo mass prior")
+        .click();
+    harness.run();
+    harness
+        .get_by_role_and_label(Role::Button, "Run forecast")
+        .click();
+    harness.step();
+    assert!(harness.state().forecasting(), "the forecast started");
+    let deadline = Instant::now() + Duration::from_secs(300);
+    while harness.state().forecasting() && Instant::now() < deadline {
+        std::thread::sleep(Duration::from_millis(50));
+        harness.step();
+    }
+    assert!(
+        !harness.state().forecasting(),
+        "the forecast did not finish"
+    );
+    harness.run();
+    let forecast = harness.state().forecast().expect("a forecast");
+    assert_eq!(forecast.design.n_galaxies(), 1);
+    assert!(!forecast.stellar_mass_prior, "the box was unticked");
+    // Sizes 0.5, 1, 2 and 4 times one galaxy: at least one galaxy each.
+    let sizes: Vec<usize> = forecast.power.iter().map(|p| p.n_galaxies).collect();
+    assert_eq!(sizes, vec![1, 1, 2, 4]);
+    let _ = harness.get_by_label("P(ΔBIC ≥ 6)");
+    let _ = harness.get_by_label_contains("forecast: a catalogue of 1 galaxy detects fall-off");
+    std::fs::remove_dir_all(&export).ok();
+}

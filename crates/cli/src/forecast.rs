@@ -20,7 +20,7 @@ use caldera_physics::units::DEFAULT_HALO_AGE_GYR;
 use caldera_report::figures::{PowerCurve, PowerFigure, save_figure};
 use clap::Args;
 use indicatif::{ProgressBar, ProgressStyle};
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 use crate::Verbosity;
 use crate::population::parse_particle;
@@ -43,8 +43,8 @@ this pool at --scales times the design's size and compared by BIC (constant vs -
 pub struct ForecastArgs {
     /// The true σ(v)/m the invented galaxies are made with, as for `caldera population
     /// --particle` (e.g. fall-off:sigma0_m=20,w=150).
-    #[arg(long, value_name = "SPEC")]
-    pub truth: String,
+    #[arg(long, value_name = "SPEC", required_unless_present = "replot")]
+    pub truth: Option<String>,
     /// The velocity-dependent model compared against a constant σ/m (default: the truth's kind,
     /// or fall-off when the truth is constant).
     #[arg(long, value_name = "MODEL")]
@@ -99,9 +99,12 @@ pub struct ForecastArgs {
     /// Print the report as JSON.
     #[arg(long)]
     pub json: bool,
+    /// Fit nothing: read --out's forecast.json, redraw power.svg/png and print the report again.
+    #[arg(long)]
+    pub replot: bool,
 }
 
-#[derive(Debug, Serialize)]
+#[derive(Debug, Serialize, Deserialize)]
 struct Report {
     #[serde(flatten)]
     forecast: Forecast,
@@ -128,7 +131,10 @@ fn progress_bar(verbosity: Verbosity, what: &str) -> ProgressBar {
 
 /// Reports fitted galaxies on a bar, or as plain lines every tenth of the way when stderr is
 /// not a terminal.
-fn galaxy_progress(bar: &ProgressBar, verbosity: Verbosity) -> impl Fn(usize, usize) + Sync + '_ {
+fn galaxy_progress(
+    bar: &ProgressBar,
+    verbosity: Verbosity,
+) -> impl Fn(usize, usize) -> bool + Sync + '_ {
     let plain = verbosity != Verbosity::Quiet && bar.is_hidden();
     move |done, total| {
         bar.set_length(total as u64);
@@ -136,6 +142,7 @@ fn galaxy_progress(bar: &ProgressBar, verbosity: Verbosity) -> impl Fn(usize, us
         if plain && (done == total || done % (total / 10).max(1) == 0) {
             eprintln!("  {done}/{total} invented galaxies fitted");
         }
+        true
     }
 }
 
@@ -245,6 +252,15 @@ fn text_report(report: &Report) -> String {
     text
 }
 
+/// The Wilson score interval (68%, z = 1) of a fraction `share` of `n` trials: unlike the
+/// normal approximation, not empty at 0 or 1 (Wilson 1927; common practice for small n).
+fn wilson_interval(share: f64, n: usize) -> (f64, f64) {
+    let n = n.max(1) as f64;
+    let centre = (share + 0.5 / n) / (1.0 + 1.0 / n);
+    let half = (share * (1.0 - share) / n + 0.25 / (n * n)).sqrt() / (1.0 + 1.0 / n);
+    (centre - half, centre + half)
+}
+
 fn figure(report: &Report) -> PowerFigure {
     let f = &report.forecast;
     let curve = |label: String, value: fn(&PowerPoint) -> f64, dashed| PowerCurve {
@@ -257,7 +273,16 @@ fn figure(report: &Report) -> PowerFigure {
         dashed,
     };
     PowerFigure {
-        title: format!("Detecting {} against a constant σ/m", f.alternative.name()),
+        title: format!(
+            "Detecting {} against a constant σ/m ({} galaxies{})",
+            f.alternative.name(),
+            f.design.n_galaxies(),
+            if f.stellar_mass_prior {
+                ", stellar-to-halo mass prior"
+            } else {
+                ""
+            }
+        ),
         curves: vec![
             curve(
                 format!("ΔBIC ≥ {STRONG_DELTA_BIC} (strong)"),
@@ -274,21 +299,42 @@ fn figure(report: &Report) -> PowerFigure {
             .end_to_end
             .iter()
             .map(|p| {
-                let n = p.replicas.max(1) as f64;
-                (
-                    p.n_galaxies as f64,
-                    p.power_strong,
-                    (p.power_strong * (1.0 - p.power_strong) / n).sqrt(),
-                )
+                let (low, high) = wilson_interval(p.power_strong, p.replicas);
+                (p.n_galaxies as f64, p.power_strong, low, high)
             })
             .collect(),
-        reference_label: "ΔBIC ≥ 6, fresh catalogues end to end".into(),
+        reference_label: "ΔBIC ≥ 6, fresh catalogues end to end (68%)".into(),
+    }
+}
+
+/// Writes the report's JSON and figures to `out` and prints it.
+fn finish(report: &Report, out: &std::path::Path, json_output: bool) -> anyhow::Result<()> {
+    std::fs::create_dir_all(out).with_context(|| format!("cannot create {}", out.display()))?;
+    let json = serde_json::to_string_pretty(report)? + "\n";
+    write_atomic(&out.join("forecast.json"), json.as_bytes())?;
+    let figure = figure(report);
+    save_figure(&figure, &out.join("power.svg"))?;
+    save_figure(&figure, &out.join("power.png"))?;
+    if json_output {
+        crate::output::print(&json)
+    } else {
+        crate::output::print(&text_report(report))
     }
 }
 
 /// Runs `caldera forecast`.
 pub(crate) fn run(args: &ForecastArgs, verbosity: Verbosity) -> anyhow::Result<ExitCode> {
-    let truth = parse_particle(&args.truth).context("--truth")?;
+    if args.replot {
+        let path = args.out.join("forecast.json");
+        let text = std::fs::read_to_string(&path)
+            .with_context(|| format!("cannot read {}", path.display()))?;
+        let report: Report = serde_json::from_str(&text)
+            .with_context(|| format!("{} is not a forecast report", path.display()))?;
+        finish(&report, &args.out, args.json)?;
+        return Ok(ExitCode::SUCCESS);
+    }
+    let truth =
+        parse_particle(args.truth.as_deref().context("--truth is required")?).context("--truth")?;
     let alternative = match &args.alternative {
         Some(name) => VelocityModel::from_name(name).with_context(|| {
             format!(
@@ -380,18 +426,7 @@ pub(crate) fn run(args: &ForecastArgs, verbosity: Verbosity) -> anyhow::Result<E
         strong_delta_bic: STRONG_DELTA_BIC,
         positive_delta_bic: POSITIVE_DELTA_BIC,
     };
-    std::fs::create_dir_all(&args.out)
-        .with_context(|| format!("cannot create {}", args.out.display()))?;
-    let json = serde_json::to_string_pretty(&report)? + "\n";
-    write_atomic(&args.out.join("forecast.json"), json.as_bytes())?;
-    let figure = figure(&report);
-    save_figure(&figure, &args.out.join("power.svg"))?;
-    save_figure(&figure, &args.out.join("power.png"))?;
-    if args.json {
-        crate::output::print(&json)?;
-    } else {
-        crate::output::print(&text_report(&report))?;
-    }
+    finish(&report, &args.out, args.json)?;
     if verbosity != Verbosity::Quiet {
         eprintln!(
             "wrote {} (forecast.json, power.svg/png)",
@@ -399,4 +434,20 @@ pub(crate) fn run(args: &ForecastArgs, verbosity: Verbosity) -> anyhow::Result<E
         );
     }
     Ok(ExitCode::SUCCESS)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::wilson_interval;
+
+    #[test]
+    fn wilson_interval_matches_hand_values() {
+        // 6 of 6: centre (1 + 1/12)/(1 + 1/6) = 13/14, half-width (1/12)/(7/6) = 1/14, by hand
+        // from Wilson's (1927) formula at z = 1.
+        let (low, high) = wilson_interval(1.0, 6);
+        assert!((low - 12.0 / 14.0).abs() < 1e-12 && (high - 1.0).abs() < 1e-12);
+        // Large n: the normal approximation p ± √(p(1−p)/n).
+        let (low, high) = wilson_interval(0.5, 10_000);
+        assert!((low - 0.495).abs() < 1e-4 && (high - 0.505).abs() < 1e-4);
+    }
 }

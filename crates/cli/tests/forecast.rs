@@ -83,6 +83,12 @@ fn a_tiny_forecast_reports_power_by_catalogue_size() {
         let meta = std::fs::metadata(dir.join(file)).expect(file);
         assert!(meta.len() > 0, "{file} is empty");
     }
+    // --replot redraws from the JSON without fitting, the same report.
+    std::fs::remove_file(dir.join("power.svg")).expect("remove the figure");
+    let (code, replotted, stderr) = caldera(&["forecast", "--replot", "--out", &out, "--json"]);
+    assert_eq!(code, 0, "{stderr}");
+    let again: serde_json::Value = serde_json::from_str(&replotted).expect("JSON report");
+    assert_eq!(again, report);
     let svg = std::fs::read_to_string(dir.join("power.svg")).expect("svg");
     assert!(
         svg.contains("Galaxies in the catalogue"),

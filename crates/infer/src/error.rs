@@ -18,4 +18,7 @@ pub enum InferError {
     /// The physics refused the inputs.
     #[error(transparent)]
     Physics(#[from] caldera_physics::PhysicsError),
+    /// The user stopped the work.
+    #[error("cancelled")]
+    Cancelled,
 }

@@ -266,7 +266,10 @@ fn fit_galaxy_as_configured<O: Observer>(
     };
     let bounds = posterior.layout().bounds();
     let straightening = straightening(&posterior, config.straighten);
-    let starts = if straightening.regressed.is_empty() {
+    // A prior-only run starts at the best point alone: the ridge follows the data's posterior,
+    // and on the prior's support (halos whose core lies within the bounds) its fallback starts
+    // can land in pockets the ensemble then over-weights.
+    let starts = if straightening.regressed.is_empty() || posterior.prior_only {
         vec![map.theta.clone()]
     } else {
         ridge_starts(&posterior, &bounds, &map, straightening.given)?

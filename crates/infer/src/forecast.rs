@@ -375,13 +375,14 @@ fn forecast_fit_config(fit: &FitConfig, seed: u64) -> FitConfig {
 }
 
 /// Makes and fits `counts[b]` invented galaxies in each design bin `b`, in parallel;
-/// `progress(done, total)` after each fit. The seeds derive from `seed`, the bin and the index.
+/// `progress(done, total)` after each fit, whose false stops the work
+/// ([`InferError::Cancelled`]). The seeds derive from `seed`, the bin and the index.
 pub fn fit_mocks(
     design: &Design,
     counts: &[usize],
     settings: &ForecastSettings,
     seed: u64,
-    progress: &(dyn Fn(usize, usize) + Sync),
+    progress: &(dyn Fn(usize, usize) -> bool + Sync),
 ) -> Result<Vec<FittedMock>, InferError> {
     design.check()?;
     let slots: Vec<(usize, usize)> = counts
@@ -391,9 +392,13 @@ pub fn fit_mocks(
         .collect();
     let total = slots.len();
     let done = std::sync::atomic::AtomicUsize::new(0);
+    let stop = std::sync::atomic::AtomicBool::new(false);
     slots
         .par_iter()
         .map(|&(b, k)| {
+            if stop.load(std::sync::atomic::Ordering::Relaxed) {
+                return Err(InferError::Cancelled);
+            }
             let galaxy_seed =
                 seed ^ ((b as u64 + 1) << 40) ^ (k as u64 + 1).wrapping_mul(0x9e37_79b9_7f4a_7c15);
             let mut rng = Xoshiro256PlusPlus::seed_from_u64(galaxy_seed);
@@ -414,7 +419,9 @@ pub fn fit_mocks(
                 settings.population.max_samples_per_galaxy,
             )?;
             let finished = done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1;
-            progress(finished, total);
+            if !progress(finished, total) {
+                stop.store(true, std::sync::atomic::Ordering::Relaxed);
+            }
             Ok(FittedMock {
                 bin: b,
                 spec,
@@ -589,7 +596,7 @@ fn check_settings(settings: &ForecastSettings) -> Result<(), InferError> {
 pub fn forecast(
     design: &Design,
     settings: &ForecastSettings,
-    progress: &(dyn Fn(usize, usize) + Sync),
+    progress: &(dyn Fn(usize, usize) -> bool + Sync),
 ) -> Result<Forecast, InferError> {
     check_settings(settings)?;
     let started = std::time::Instant::now();
@@ -655,7 +662,7 @@ pub fn end_to_end(
     design: &Design,
     settings: &ForecastSettings,
     catalogues: usize,
-    progress: &(dyn Fn(usize, usize) + Sync),
+    progress: &(dyn Fn(usize, usize) -> bool + Sync),
 ) -> Result<PowerPoint, InferError> {
     check_settings(settings)?;
     let counts: Vec<usize> = design.bins.iter().map(|b| b.count * catalogues).collect();

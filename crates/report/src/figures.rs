@@ -756,9 +756,9 @@ pub struct PowerFigure {
     pub title: String,
     /// Curves of power (0–1) against the number of galaxies.
     pub curves: Vec<PowerCurve>,
-    /// Reference points with a symmetric error (number of galaxies, power, its standard
-    /// error), e.g. from catalogues fitted end to end.
-    pub references: Vec<(f64, f64, f64)>,
+    /// Reference points with an interval (number of galaxies, power, low, high), e.g. from
+    /// catalogues fitted end to end.
+    pub references: Vec<(f64, f64, f64, f64)>,
     pub reference_label: String,
 }
 
@@ -839,13 +839,13 @@ impl Figure for PowerFigure {
         }
         if !self.references.is_empty() {
             let style = theme::DATA.stroke_width(scale.px(2));
-            for &(x, y, error) in &self.references {
+            for &(x, y, low, high) in &self.references {
                 chart
                     .draw_series(std::iter::once(ErrorBar::new_vertical(
                         x,
-                        (y - error).max(0.0),
+                        low.clamp(0.0, 1.0),
                         y,
-                        (y + error).min(1.0),
+                        high.clamp(0.0, 1.0),
                         style,
                         scale.px(8),
                     )))
@@ -854,9 +854,9 @@ impl Figure for PowerFigure {
             let (size, lead) = (scale.px(7), scale.offset(12));
             chart
                 .draw_series(
-                    self.references
-                        .iter()
-                        .map(|&(x, y, _)| TriangleMarker::new((x, y), size, theme::DATA.filled())),
+                    self.references.iter().map(|&(x, y, _, _)| {
+                        TriangleMarker::new((x, y), size, theme::DATA.filled())
+                    }),
                 )
                 .map_err(draw_error)?
                 .label(self.reference_label.as_str())
