@@ -1,10 +1,15 @@
 //! Benchmarks of the population hot paths: one Maxwellian average ⟨σv⟩/m per cross-section
 //! model, and one population log-likelihood (16 invented galaxies × 600 samples) in the marginal
-//! and joint treatments.
+//! and joint treatments; and one forecast catalogue's ΔBIC (the constant and fall-off models'
+//! maximum likelihoods over the same 16 galaxies), what `caldera forecast` repeats
+//! replicas × sizes times.
 
 use std::hint::black_box;
 
-use caldera_infer::population::{GalaxyPosterior, PopulationLikelihood, Treatment, VelocityModel};
+use caldera_infer::forecast::delta_bic;
+use caldera_infer::population::{
+    GalaxyPosterior, PopulationLikelihood, PopulationSettings, Treatment, VelocityModel,
+};
 use caldera_physics::CrossSection;
 use criterion::{Criterion, criterion_group, criterion_main};
 use rand::SeedableRng;
@@ -58,6 +63,11 @@ fn benches(c: &mut Criterion) {
             );
         }
     }
+    let settings = PopulationSettings::default();
+    assert!(delta_bic(&galaxies, VelocityModel::FallOff, &settings).is_ok_and(f64::is_finite));
+    c.bench_function("forecast_delta_bic/fall_off/16_galaxies", |b| {
+        b.iter(|| delta_bic(black_box(&galaxies), VelocityModel::FallOff, &settings))
+    });
 }
 
 criterion_group!(population, benches);
