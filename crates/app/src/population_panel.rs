@@ -311,16 +311,21 @@ impl CalderaApp {
             )
             .small(),
         );
+        let parameters = forecast.alternative.parameters();
         for i in &forecast.intervals {
+            let symbol = parameters
+                .iter()
+                .find(|p| p.key == i.name)
+                .map_or(i.name.as_str(), |p| p.symbol);
             ui.label(format!(
-                "{}: expected ±{:.2} dex (16–84%), median {} {}{}",
-                i.name,
+                "{symbol}: expected ±{:.2} dex (16–84%), median {} {}{} over {} sampled catalogues",
                 i.median_half_width_dex,
                 significant(i.median_of_medians, 3),
                 i.unit,
                 i.truth
                     .map(|t| format!(" (truth {} {})", significant(t, 3), i.unit))
-                    .unwrap_or_default()
+                    .unwrap_or_default(),
+                i.catalogues
             ));
         }
     }
