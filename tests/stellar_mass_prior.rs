@@ -70,7 +70,7 @@ fn the_curves_spherical_estimate_of_a_thin_disks_mass() {
 #[test]
 fn metadata_gives_the_stellar_mass_when_present() {
     let mut table = disk_table(1e9, 2.0, 5.0);
-    table.meta.stellar_mass_msun = Some(2.5e9);
+    table.meta.luminosity_lsun = Some(2.5e9);
     let unit = StellarMassUnit::of_table(&table).expect("has stars");
     assert!(unit.from_metadata);
     assert!((unit.disk_msun - 2.5e9).abs() < 1.0);

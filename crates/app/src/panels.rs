@@ -440,7 +440,7 @@ impl CalderaApp {
                 if ui
                     .checkbox(&mut stellar, "Stellar-to-halo mass prior")
                     .on_hover_text(
-                        "log10 of the stellar mass at the sampled Υ's normal around the Moster, Naab & White (2013) relation at the halo's M200, 0.15 dex scatter. The stellar mass at Υ = 1 is the table's stellar_mass_msun, else V²r/G of the disk and bulge curves at the last radius (a spherical estimate). Not applied to halos without M200 (pseudo-isothermal).",
+                        "log10 of the stellar mass at the sampled Υ's normal around the Moster, Naab & White (2013) relation at the halo's M200, 0.15 dex scatter. The stellar mass at Υ = 1 is the table's luminosity_lsun, else V²r/G of the disk and bulge curves at the last radius (a spherical estimate). Not applied to halos without M200 (pseudo-isothermal).",
                     )
                     .changed()
                 {

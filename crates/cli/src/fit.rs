@@ -141,7 +141,7 @@ pub struct FitSettings {
     #[arg(long, value_enum, default_value_t = CoordinateChoice::Core)]
     pub sidm_coordinates: CoordinateChoice,
     /// Apply the stellar-to-halo mass prior (Moster, Naab & White 2013, 0.15 dex scatter) to the
-    /// stellar mass at the sampled Υ's: the table's stellar_mass_msun metadata at Υ = 1 when
+    /// stellar mass at the sampled Υ's: Υ times the table's luminosity_lsun metadata when
     /// given, else the disk and bulge curves' V²r/G at the last radius (a spherical estimate
     /// that misses stars beyond it). Not for halos without an M200 (pseudo-isothermal).
     #[arg(long)]

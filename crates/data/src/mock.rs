@@ -226,7 +226,7 @@ pub fn generate(spec: &MockSpec) -> Result<(GalaxyTable, MockTruth), MockError> 
             inclination_deg: Some(spec.inclination_deg),
             inclination_err_deg: Some(spec.inclination_err_deg),
             age_gyr: Some(spec.age_gyr),
-            stellar_mass_msun: None,
+            luminosity_lsun: None,
             notes: spec.notes.clone(),
         },
         source: None,

@@ -18,11 +18,11 @@ pub struct GalaxyMeta {
     pub inclination_err_deg: Option<f64>,
     /// Halo age for the SIDM rate condition, Gyr.
     pub age_gyr: Option<f64>,
-    /// Stellar mass of the disk and bulge at mass-to-light ratio Υ = 1 (their luminosity in
-    /// solar units times 1 Msun/Lsun) at the table's distance, Msun; used by the
-    /// stellar-to-halo mass prior.
+    /// Luminosity of the stellar disk and bulge in the band of their mass-to-light ratios Υ, at
+    /// the table's distance, Lsun: the stellar mass is Υ times it (the disk and bulge columns
+    /// are at Υ = 1 Msun/Lsun). Used by the stellar-to-halo mass prior.
     #[serde(default)]
-    pub stellar_mass_msun: Option<f64>,
+    pub luminosity_lsun: Option<f64>,
     pub notes: String,
 }
 

@@ -109,8 +109,8 @@ pub(crate) fn apply_meta(
             meta.inclination_err_deg = Some(number(value)?);
         }
         "age" | "agegyr" | "haloage" | "haloagegyr" => meta.age_gyr = Some(number(value)?),
-        "stellarmass" | "stellarmassmsun" | "mstar" | "mstarmsun" => {
-            meta.stellar_mass_msun = Some(number(value)?);
+        "luminosity" | "luminositylsun" | "stellarluminosity" | "stellarluminositylsun" => {
+            meta.luminosity_lsun = Some(number(value)?);
         }
         "notes" | "note" | "comment" => {
             if !meta.notes.is_empty() {

@@ -259,7 +259,7 @@ impl GalaxyTable {
             ("inclination_deg", self.meta.inclination_deg),
             ("inclination_err_deg", self.meta.inclination_err_deg),
             ("age_gyr", self.meta.age_gyr),
-            ("stellar_mass_msun", self.meta.stellar_mass_msun),
+            ("luminosity_lsun", self.meta.luminosity_lsun),
         ] {
             if let Some(v) = value {
                 table = table.with_meta(key, MetaValue::Number(v));

@@ -13,7 +13,7 @@ fn sample() -> GalaxyTable {
             inclination_deg: Some(61.0),
             inclination_err_deg: Some(3.0),
             age_gyr: Some(10.0),
-            stellar_mass_msun: Some(3.25e9),
+            luminosity_lsun: Some(3.25e9),
             notes: "invented: round-trip test".into(),
         },
         source: None,

@@ -342,8 +342,9 @@ pub fn draw_design_galaxy(
         };
         match generate(&spec) {
             Ok((mut table, mock_truth)) => {
-                // The stars' mass at Υ = 1 (the column's), as a photometric table would give it.
-                table.meta.stellar_mass_msun = Some(stellar_mass / upsilon_disk);
+                // The stars' luminosity (their mass at Υ = 1, the column's), as photometry would
+                // give it.
+                table.meta.luminosity_lsun = Some(stellar_mass / upsilon_disk);
                 let Some(sidm) = mock_truth.sidm else {
                     last_error = "the mock has no SIDM halo".into();
                     continue;

@@ -117,8 +117,9 @@ pub struct GalaxyModel {
 /// The stellar mass of a table's disk and bulge at Υ = 1 and the table's distance, Msun, and
 /// where it comes from.
 ///
-/// From the table's `stellar_mass_msun` metadata when given (shared between disk and bulge in
-/// the proportion of the curves' estimate, all disk without one); otherwise from the curves
+/// From the table's `luminosity_lsun` metadata when given (the stellar mass at Υ = 1 Msun/Lsun;
+/// shared between disk and bulge in the proportion of the curves' estimate, all disk without
+/// one); otherwise from the curves
 /// themselves: V²r/G of the disk (and bulge) column at the last radius. That estimate is the
 /// spherical one: for a thin exponential disk it is 0.85 of the disk's whole mass when the
 /// curve stops at 2.2 scale lengths, 1.19 at 4 and 1.17 at 6 (a disk pulls harder than a sphere
@@ -150,7 +151,7 @@ impl StellarMassUnit {
             .as_ref()
             .map_or(0.0, |b| spherical(b[last.0]));
         let curves = disk + bulge;
-        match table.meta.stellar_mass_msun {
+        match table.meta.luminosity_lsun {
             Some(total) if total > 0.0 && total.is_finite() => {
                 let disk_share = if curves > 0.0 { disk / curves } else { 1.0 };
                 Some(Self {
@@ -352,7 +353,7 @@ impl GalaxyModel {
             stellar_mass_unit: if priors.stellar_mass_halo {
                 Some(StellarMassUnit::of_table(table).ok_or_else(|| {
                     InferError::Config(format!(
-                        "{}: the stellar-to-halo mass prior needs a stellar mass, but the table's disk and bulge columns hold none and it gives no stellar_mass_msun",
+                        "{}: the stellar-to-halo mass prior needs a stellar mass, but the table's disk and bulge columns hold none and it gives no luminosity_lsun",
                         table.meta.name
                     ))
                 })?)
