@@ -73,7 +73,7 @@ impl CalderaApp {
     pub fn new(cc: &eframe::CreationContext<'_>, options: AppOptions) -> Self {
         // A light theme, so the curves use the same colours as the exported (white) figures.
         cc.egui_ctx.set_theme(egui::Theme::Light);
-        // The figures' font (DejaVu Sans) first: its Greek is unmistakable (ρ, χ, ν, Υ), where
+        // The figures' font (DejaVu Sans) first: its Greek is unmistakable (ρ, χ, ν, ϒ), where
         // egui's default font draws them much like p, x, v and Y.
         let mut fonts = egui::FontDefinitions::default();
         fonts.font_data.insert(

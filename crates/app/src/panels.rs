@@ -440,7 +440,7 @@ impl CalderaApp {
                 if ui
                     .checkbox(&mut stellar, "Stellar-to-halo mass prior")
                     .on_hover_text(
-                        "log10 of the stellar mass at the sampled Υ's normal around the Moster, Naab & White (2013) relation at the halo's M200, 0.15 dex scatter. The stellar mass at Υ = 1 is the table's luminosity_lsun, else V²r/G of the disk and bulge curves at the last radius (a spherical estimate). Not applied to halos without M200 (pseudo-isothermal).",
+                        "log10 of the stellar mass at the sampled ϒ's normal around the Moster, Naab & White (2013) relation at the halo's M200, 0.15 dex scatter. The stellar mass at ϒ = 1 is the table's luminosity_lsun, else V²r/G of the disk and bulge curves at the last radius (a spherical estimate). Not applied to halos without M200 (pseudo-isothermal).",
                     )
                     .changed()
                 {
@@ -1107,7 +1107,7 @@ fn prior_summary(priors: &caldera_infer::priors::Priors, model: HaloModel) -> St
 }
 
 /// What the prior line means, on hover.
-const PRIOR_HOVER: &str = "The outer halo's prior is the same for NFW, Einasto, Burkert and SIDM: log-uniform V200 and log c200 normal around the Dutton & Macciò (2014) relation. SIDM and Burkert halos are sampled in their own coordinates and carry this prior there by the Jacobian. When several SIDM cores match one outer halo, the prior admits the lowest-density one (the core-expansion solution). Υ's, distance and inclination have their own priors (README).";
+const PRIOR_HOVER: &str = "The outer halo's prior is the same for NFW, Einasto, Burkert and SIDM: log-uniform V200 and log c200 normal around the Dutton & Macciò (2014) relation. SIDM and Burkert halos are sampled in their own coordinates and carry this prior there by the Jacobian. When several SIDM cores match one outer halo, the prior admits the lowest-density one (the core-expansion solution). ϒ's, distance and inclination have their own priors (README).";
 
 #[cfg(test)]
 mod tests {

@@ -108,7 +108,9 @@ impl ParamId {
         Self::ALL.into_iter().find(|p| p.key() == key)
     }
 
-    /// The symbol for people, without unit (UI fonts lack few of these characters).
+    /// The symbol for people, without unit (UI fonts lack few of these characters). The
+    /// mass-to-light ratio is the upsilon with hooks, ϒ (U+03D2): the plain capital Υ (U+03A5) is
+    /// drawn exactly as a Latin Y by the app's and the figures' font (DejaVu Sans).
     #[must_use]
     pub fn symbol(self) -> &'static str {
         match self {
@@ -120,8 +122,8 @@ impl ParamId {
             Self::R0 => "r0",
             Self::Rc => "r_c",
             Self::EinastoAlpha => "α",
-            Self::UpsilonDisk => "Υ_disk",
-            Self::UpsilonBulge => "Υ_bulge",
+            Self::UpsilonDisk => "ϒ_disk",
+            Self::UpsilonBulge => "ϒ_bulge",
             Self::Distance => "D",
             Self::Inclination => "i",
         }
