@@ -20,6 +20,10 @@ export DISPLAY="$display" LIBGL_ALWAYS_SOFTWARE=1 WINIT_UNIX_BACKEND=x11
 cd "$root"
 target/release/caldera-app demo_galaxies --export-dir "$(mktemp -d)" &
 app=$!
+# The pointer starts at the screen's centre, over the plot, where egui_plot marks the nearest
+# curve point; it is moved to the status bar first (xdotool, when installed).
+sleep 2
+if command -v xdotool >/dev/null; then xdotool mousemove 1390 850; fi
 sleep "${SCREENSHOT_WAIT:-12}"
 python3 - "$display" "$out" <<'PY'
 import sys
