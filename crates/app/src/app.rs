@@ -15,7 +15,7 @@ use caldera_infer::priors::Priors;
 use caldera_infer::run_folder::RunFolder;
 use caldera_infer::sampler::RunConfig;
 use caldera_infer::session::Session;
-use caldera_infer::summary::clearly_preferred;
+use caldera_infer::summary::ranking_sentence;
 use caldera_infer::tempering::LadderConfig;
 use caldera_infer::{FitConfig, FitSummary};
 use caldera_physics::units::DEFAULT_HALO_AGE_GYR;
@@ -760,19 +760,11 @@ impl CalderaApp {
             self.say(MessageKind::Warning, "population fit cancelled");
             return;
         }
-        match clearly_preferred(&fits, |f| f.bic) {
-            Some(best) => self.say(
+        if let Some(sentence) = ranking_sentence(&fits, |f| f.model.name().to_string(), |f| f.bic) {
+            self.say(
                 MessageKind::Result,
-                format!(
-                    "population fit: {} preferred (ΔBIC ≥ 2 to every other model)",
-                    best.model.name()
-                ),
-            ),
-            None if !fits.is_empty() => self.say(
-                MessageKind::Result,
-                "population fit: no clear preference (the best models tie within ΔBIC < 2)",
-            ),
-            None => {}
+                format!("population fit by ΔBIC: {sentence}"),
+            );
         }
         if !fits.is_empty() {
             self.runtime.population = Some(fits);
@@ -1088,7 +1080,7 @@ impl CalderaApp {
         for (k, fit) in self.runtime.population.iter().flatten().enumerate() {
             if let Ok(cross_section) = fit.best_cross_section() {
                 curves.push(PopulationCurve {
-                    label: format!("fit: {} (best)", fit.model.name()),
+                    label: format!("fit: {} (best-fit parameters)", fit.model.name()),
                     points: linear_curves(&cross_section).1,
                     dashed: false,
                     group: k + 1,

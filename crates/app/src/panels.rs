@@ -900,7 +900,7 @@ impl CalderaApp {
                     if let Ok(cross_section) = fit.best_cross_section() {
                         plot.line(
                             Line::new(
-                                format!("fit: {} (best)", fit.model.name()),
+                                format!("fit: {} (best-fit parameters)", fit.model.name()),
                                 PlotPoints::from(log_curves(&cross_section).1),
                             )
                             .color(theme::CURVES[k % 4])

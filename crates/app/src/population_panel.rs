@@ -2,7 +2,7 @@
 //! emits commands only.
 
 use caldera_infer::population::VelocityModel;
-use caldera_infer::summary::clearly_preferred;
+use caldera_infer::summary::{clearly_preferred, ranking_sentence};
 use caldera_physics::cross_section::dispersion_from_mean_relative_speed_kms;
 use caldera_physics::units::BARN_PER_GEV_PER_CM2_PER_G;
 use egui::RichText;
@@ -178,8 +178,10 @@ impl CalderaApp {
                         );
                     }
                 });
-            if preferred.is_none() {
-                ui.label("No clear preference: the best models are within ΔBIC < 2 (a tie).");
+            if let Some(sentence) =
+                ranking_sentence(fits, |f| f.model.name().to_string(), |f| f.bic)
+            {
+                ui.label(format!("By ΔBIC: {sentence}."));
             }
             ui.label(
                 RichText::new(

@@ -17,7 +17,7 @@ use caldera_infer::run_folder::RunFolder;
 use caldera_infer::sampler::Silent;
 use caldera_infer::session::Session;
 use caldera_infer::summary::Interval;
-use caldera_infer::summary::{clearly_preferred, evidence_words};
+use caldera_infer::summary::{clearly_preferred, evidence_words, ranking_sentence};
 use caldera_physics::cross_section::dispersion_from_mean_relative_speed_kms;
 use caldera_physics::units::BARN_PER_GEV_PER_CM2_PER_G;
 use caldera_physics::{CrossSection, CrossSectionKind};
@@ -394,16 +394,11 @@ fn text_report(report: &Report) -> String {
             unscattered,
         );
     }
-    if let Some(preferred) = report.preferred {
-        let clear = clearly_preferred(&report.models, |m| m.bic).is_some();
+    if let Some(sentence) =
+        ranking_sentence(&report.models, |m| m.model.name().to_string(), |m| m.bic)
+    {
         text += &format!(
-            "\nlowest BIC of the population fit: {}{}\n",
-            preferred.name(),
-            if clear {
-                " (preferred: ΔBIC ≥ 2 to every other model)"
-            } else {
-                " — a tie: another model is within ΔBIC < 2 (Kass & Raftery scale, common practice)"
-            }
+            "\npopulation fit by ΔBIC (Kass & Raftery scale, common practice): {sentence}\n"
         );
     }
     text

@@ -94,6 +94,44 @@ pub fn clearly_preferred<T>(items: &[T], criterion: impl Fn(&T) -> f64) -> Optio
     }
 }
 
+/// One sentence on the models' ranking by an information criterion (`criterion` picks BIC or
+/// AIC; `name` names an entry): the clearly preferred one, or which tie within 2 of the lowest
+/// and how far behind, in [`evidence_words`], the others are — a tie among velocity-dependent
+/// models with a constant far behind is still a verdict on the constant. None with fewer than two
+/// entries to compare.
+#[must_use]
+pub fn ranking_sentence<T>(
+    items: &[T],
+    name: impl Fn(&T) -> String,
+    criterion: impl Fn(&T) -> f64,
+) -> Option<String> {
+    let mut sorted: Vec<&T> = items.iter().filter(|t| criterion(t).is_finite()).collect();
+    if sorted.len() < 2 {
+        return None;
+    }
+    sorted.sort_by(|a, b| criterion(a).total_cmp(&criterion(b)));
+    let best = criterion(sorted[0]);
+    let (tied, behind): (Vec<&T>, Vec<&T>) = sorted.iter().partition(|t| criterion(t) - best < 2.0);
+    let lead = if tied.len() == 1 {
+        format!("{} preferred", name(tied[0]))
+    } else {
+        let names: Vec<String> = tied.iter().map(|t| name(t)).collect();
+        format!("{} tie (within 2 of the lowest)", names.join(", "))
+    };
+    let rest: Vec<String> = behind
+        .iter()
+        .map(|t| {
+            let delta = criterion(t) - best;
+            format!("{} {delta:.1} behind ({})", name(t), evidence_words(delta))
+        })
+        .collect();
+    Some(if rest.is_empty() {
+        lead
+    } else {
+        format!("{lead}; {}", rest.join(", "))
+    })
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -133,5 +171,22 @@ mod tests {
         let bic = [10.0, 13.0];
         assert_eq!(clearly_preferred(&bic, |b| *b), Some(&10.0));
         assert!(clearly_preferred(&[10.0], |b| *b).is_none());
+    }
+
+    #[test]
+    fn the_ranking_sentence_names_the_tie_and_the_models_behind() {
+        let bic = [("constant", 16.2), ("fall-off", 10.0), ("yukawa", 10.1)];
+        let sentence = ranking_sentence(&bic, |b| b.0.to_string(), |b| b.1).expect("a ranking");
+        assert_eq!(
+            sentence,
+            "fall-off, yukawa tie (within 2 of the lowest); constant 6.2 behind (strong against)"
+        );
+        let bic = [("constant", 13.0), ("fall-off", 10.0)];
+        let sentence = ranking_sentence(&bic, |b| b.0.to_string(), |b| b.1).expect("a ranking");
+        assert_eq!(
+            sentence,
+            "fall-off preferred; constant 3.0 behind (positive against)"
+        );
+        assert!(ranking_sentence(&[("constant", 1.0)], |b| b.0.to_string(), |b| b.1).is_none());
     }
 }
