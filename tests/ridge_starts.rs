@@ -20,8 +20,9 @@
 //! The lower end: outer-halo coordinates (`--sidm-coordinates halo`, seed 1) put 9.5% of the
 //! samples below log σ/m = −1.75, where the posterior presses against the edge of the
 //! lowest-density branch. The straightened ensemble put 1.5% and 1.9% there (seeds 1, 2) while
-//! the walkers stuck at their start there held the map's lower end (see `Straightening::fit`);
-//! counting each position once, seeds 1–5 put 4.7–8.0% there. The check: more than 4%.
+//! the walkers stuck at their start there held the map's lower end (see `DistinctPositions` in
+//! the pipeline); counting each position once, seeds 1–5 put 4.7–8.0% there. The check: more
+//! than 4%.
 
 use caldera_data::mock::{MockSpec, generate};
 use caldera_data::session::HaloModel;

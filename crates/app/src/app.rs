@@ -9,13 +9,12 @@ use caldera_data::{Catalogue, ColumnMapping, DataError, GalaxyTable, ReadOptions
 use caldera_infer::InferError;
 use caldera_infer::forecast::{Design, DesignBin, ForecastSettings};
 use caldera_infer::population::{
-    GalaxyPosterior, PopulationFit, PopulationSettings, VelocityModel,
+    GalaxyPosterior, PopulationFit, PopulationSettings, VelocityModel, bic_ranking,
 };
 use caldera_infer::priors::Priors;
 use caldera_infer::run_folder::RunFolder;
 use caldera_infer::sampler::RunConfig;
 use caldera_infer::session::Session;
-use caldera_infer::summary::ranking_sentence;
 use caldera_infer::tempering::LadderConfig;
 use caldera_infer::{FitConfig, FitSummary};
 use caldera_physics::units::DEFAULT_HALO_AGE_GYR;
@@ -760,7 +759,7 @@ impl CalderaApp {
             self.say(MessageKind::Warning, "population fit cancelled");
             return;
         }
-        if let Some(sentence) = ranking_sentence(&fits, |f| f.model.name().to_string(), |f| f.bic) {
+        if let Some(sentence) = bic_ranking(&fits) {
             self.say(
                 MessageKind::Result,
                 format!("population fit by ΔBIC: {sentence}"),

@@ -1,8 +1,8 @@
 //! The population view's side panel: the particle model and the population fits. Draws and
 //! emits commands only.
 
-use caldera_infer::population::VelocityModel;
-use caldera_infer::summary::{clearly_preferred, ranking_sentence};
+use caldera_infer::population::{VelocityModel, bic_ranking};
+use caldera_infer::summary::clearly_preferred;
 use caldera_physics::cross_section::dispersion_from_mean_relative_speed_kms;
 use caldera_physics::units::BARN_PER_GEV_PER_CM2_PER_G;
 use egui::RichText;
@@ -178,9 +178,7 @@ impl CalderaApp {
                         );
                     }
                 });
-            if let Some(sentence) =
-                ranking_sentence(fits, |f| f.model.name().to_string(), |f| f.bic)
-            {
+            if let Some(sentence) = bic_ranking(fits) {
                 ui.label(format!("By ΔBIC: {sentence}."));
             }
             ui.label(

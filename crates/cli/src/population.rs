@@ -9,7 +9,7 @@ use anyhow::{Context, bail};
 use caldera_data::session::load_session;
 use caldera_data::{OutsideConstraint, read_constraints, write_atomic};
 use caldera_infer::population::{
-    GalaxyPosterior, PopulationFit, PopulationSettings, Treatment, VelocityModel,
+    GalaxyPosterior, PopulationFit, PopulationSettings, Treatment, VelocityModel, bic_ranking,
     effective_sigma_m_cm2_g, fit_population, load_folder_posteriors, preferred_by_aic,
     preferred_by_bic,
 };
@@ -17,7 +17,7 @@ use caldera_infer::run_folder::RunFolder;
 use caldera_infer::sampler::Silent;
 use caldera_infer::session::Session;
 use caldera_infer::summary::Interval;
-use caldera_infer::summary::{clearly_preferred, evidence_words, ranking_sentence};
+use caldera_infer::summary::{clearly_preferred, evidence_words};
 use caldera_physics::cross_section::dispersion_from_mean_relative_speed_kms;
 use caldera_physics::units::BARN_PER_GEV_PER_CM2_PER_G;
 use caldera_physics::{CrossSection, CrossSectionKind};
@@ -394,9 +394,7 @@ fn text_report(report: &Report) -> String {
             unscattered,
         );
     }
-    if let Some(sentence) =
-        ranking_sentence(&report.models, |m| m.model.name().to_string(), |m| m.bic)
-    {
+    if let Some(sentence) = bic_ranking(&report.models) {
         text += &format!(
             "\npopulation fit by ΔBIC (Kass & Raftery scale, common practice): {sentence}\n"
         );

@@ -144,26 +144,9 @@ impl Straightening {
         }
     }
 
-    /// The map fitted to the distinct positions among `samples`, if they determine one.
-    ///
-    /// A walker that never leaves its start (in a start ball pressed against the edge of the
-    /// posterior's support, where nearly every move is rejected) repeats one position for a
-    /// whole run. Counted every time, such positions pull the fitted width at their s towards
-    /// zero, and the map then stretches that stretch of s so far in its own coordinates that
-    /// the sampler leaves it and never comes back: on an invented bulge-dominated spiral
-    /// (`tests/ridge_starts.rs`) the 2 positions of the 12 walkers started at the best point,
-    /// at log σ/m = −1.94, held the whole lower end of the map, and the chains put 1.5–1.9%
-    /// of their samples below log σ/m = −1.75 against 9.5% in outer-halo coordinates. Each
-    /// position counts once here (a rejected move's repeat carries no information on the
-    /// spread; the map only decides how well the sampler mixes, never what it samples).
-    fn fit(&self, samples: &[Vec<f64>]) -> Option<ConditionalMap> {
-        let mut seen = std::collections::HashSet::new();
-        let distinct: Vec<Vec<f64>> = samples
-            .iter()
-            .filter(|x| seen.insert(x.iter().map(|v| v.to_bits()).collect::<Vec<u64>>()))
-            .cloned()
-            .collect();
-        ConditionalMap::fit(&distinct, self.given, &self.regressed)
+    /// The map fitted to `samples`, if they determine one.
+    fn fit(&self, samples: &DistinctPositions) -> Option<ConditionalMap> {
+        ConditionalMap::fit(&samples.positions, self.given, &self.regressed)
     }
 }
 
@@ -272,7 +255,8 @@ pub fn sample_straightened<D: LogDensity, O: Observer>(
     let mut positions = pilot.final_positions();
     // The map is fitted to every sample since the pilot's first half (the walkers leaving their
     // starting ball): each later run spreads further along the ridge.
-    let mut samples = chain_positions(&pilot.chain, done / 2);
+    let mut samples = DistinctPositions::default();
+    samples.extend(&pilot.chain, done / 2);
     let mut fitted = straightening.fit(&samples);
     // A pilot whose samples cannot determine a map (walkers still bunched in their starting
     // ball) goes on for another round, within the adaptation's budget.
@@ -294,7 +278,7 @@ pub fn sample_straightened<D: LogDensity, O: Observer>(
         }
         done += more.chain.steps();
         positions = more.final_positions();
-        samples.extend(chain_positions(&more.chain, 0));
+        samples.extend(&more.chain, 0);
         fitted = straightening.fit(&samples);
         extra += 1;
     }
@@ -342,13 +326,15 @@ pub fn sample_straightened<D: LogDensity, O: Observer>(
         }
         done += outcome.chain.steps();
         positions = outcome.final_positions();
-        let fresh = chain_positions(&outcome.chain, 0);
+        let chain = &outcome.chain;
         let spread_further = !map.covers(
-            fresh.iter().map(|x| x[straightening.given]),
+            chain
+                .kept(0, 1)
+                .map(|(s, w)| chain.position(s, w, straightening.given)),
             straightening.range_tolerance,
         );
         let long_tau = outcome.tau_max() > straightening.refit_tau_steps;
-        samples.extend(fresh);
+        samples.extend(chain, 0);
         if let Some(fitted) = straightening.fit(&samples) {
             map = fitted;
         }
@@ -359,7 +345,7 @@ pub fn sample_straightened<D: LogDensity, O: Observer>(
     // The main run; while it shows a long τ at one of its checks, in its first half of the
     // remaining cap, it is stopped, the map refitted to its samples too, and it starts again
     // from its last walkers (at most `max_refits` times).
-    let mut main_samples = Vec::new();
+    let mut main_samples = DistinctPositions::default();
     let mut restart: usize = 0;
     loop {
         let remaining = cap.saturating_sub(done).max(1);
@@ -393,7 +379,7 @@ pub fn sample_straightened<D: LogDensity, O: Observer>(
         done += outcome.chain.steps();
         positions = outcome.final_positions();
         // Refitted to the main runs' samples alone (the posterior itself, at β = 1).
-        main_samples.extend(chain_positions(&outcome.chain, 0));
+        main_samples.extend(&outcome.chain, 0);
         if let Some(fitted) = straightening.fit(&main_samples) {
             map = fitted;
         }
@@ -430,11 +416,35 @@ impl<O: Observer> Observer for LongTauWatch<'_, O> {
 }
 
 /// Every position of `chain` from step `from` on.
-fn chain_positions(chain: &ChainStore, from: usize) -> Vec<Vec<f64>> {
-    chain
-        .kept(from, 1)
-        .map(|(s, w)| (0..chain.n_dim).map(|p| chain.position(s, w, p)).collect())
-        .collect()
+/// The positions θ a map is fitted to, each distinct position once, in the order first met.
+///
+/// A walker that never leaves its start (in a start ball pressed against the edge of the
+/// posterior's support, where nearly every move is rejected) repeats one position for a whole
+/// run. Counted every time, such positions pull the map's fitted width at their s towards zero,
+/// and the map then stretches that stretch of s so far in its own coordinates that the sampler
+/// leaves it and never comes back: on an invented bulge-dominated spiral
+/// (`tests/ridge_starts.rs`) the 2 positions of the 12 walkers started at the best point, at
+/// log σ/m = −1.94, held the whole lower end of the map, and the chains put 1.5–1.9% of their
+/// samples below log σ/m = −1.75 against 9.5% in outer-halo coordinates. A rejected move's
+/// repeat carries no information on the spread (and the map only decides how well the sampler
+/// mixes, never what it samples).
+#[derive(Default)]
+struct DistinctPositions {
+    /// The bit patterns of the positions held.
+    seen: std::collections::HashSet<Vec<u64>>,
+    positions: Vec<Vec<f64>>,
+}
+
+impl DistinctPositions {
+    /// Adds the positions of `chain`'s steps from `from` on that are not held yet.
+    fn extend(&mut self, chain: &ChainStore, from: usize) {
+        for (s, w) in chain.kept(from, 1) {
+            let x: Vec<f64> = (0..chain.n_dim).map(|p| chain.position(s, w, p)).collect();
+            if self.seen.insert(x.iter().map(|v| v.to_bits()).collect()) {
+                self.positions.push(x);
+            }
+        }
+    }
 }
 
 /// Runs the ensemble in `map`'s coordinates from `positions` (θ), recording the chain in θ

@@ -243,7 +243,7 @@ impl ConditionalMap {
                 // (the coefficients bound the spline): a few nearly coincident samples at one
                 // end of s (walkers barely out of their start ball) would otherwise fit a width
                 // there far below the posterior's, as repeated positions did (see
-                // `Straightening::fit` in the pipeline).
+                // `DistinctPositions` in the pipeline).
                 let width_floor = rms.ln() + GAUSSIAN_MEAN_LN_ABS - WIDTH_FLOOR_E_FOLDS;
                 for c in &mut log_width {
                     *c = c.max(width_floor);

@@ -592,3 +592,10 @@ pub fn preferred_by_aic(fits: &[PopulationFit]) -> Option<VelocityModel> {
         .min_by(|a, b| a.aic.total_cmp(&b.aic))
         .map(|f| f.model)
 }
+
+/// The population fits ranked by BIC in one sentence ([`crate::summary::ranking_sentence`]):
+/// what the app's panel, its status line and `caldera population` say.
+#[must_use]
+pub fn bic_ranking(fits: &[PopulationFit]) -> Option<String> {
+    crate::summary::ranking_sentence(fits, |f| f.model.name().to_string(), |f| f.bic)
+}
